@@ -1,0 +1,23 @@
+/**
+ * The list of migrations, imported statically so that Vite (web server, vitest) and tsx (jobs, seeds,
+ * the knex CLI) share one source — Knex's directory loader cannot read .ts inside a Vite bundle.
+ * Add each new migration here, in order; the name must stay the file name.
+ */
+import type { Knex } from 'knex';
+import * as foundation from './20261201000000_foundation.ts';
+
+const migrations: Record<string, Knex.Migration> = {
+	'20261201000000_foundation.ts': foundation
+};
+
+export const migrationSource: Knex.MigrationSource<string> = {
+	async getMigrations() {
+		return Object.keys(migrations);
+	},
+	getMigrationName(name) {
+		return name;
+	},
+	async getMigration(name) {
+		return migrations[name];
+	}
+};

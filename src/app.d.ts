@@ -1,0 +1,20 @@
+import type { Role } from '$lib/server/roles';
+
+declare global {
+	namespace App {
+		interface Locals {
+			user: { id: string; username: string; displayName: string; role: Role; timeZone: string; email: string | null } | null;
+			session: import('lucia').Session | null;
+			/** Set when the request was authenticated by an API token instead of a session. */
+			apiToken: { id: number; scope: 'ingest' | 'read'; name: string } | null;
+		}
+		interface Error {
+			message: string;
+		}
+		interface PageData {
+			user?: App.Locals['user'];
+		}
+	}
+}
+
+export {};

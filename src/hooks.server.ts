@@ -1,0 +1,74 @@
+import { error, redirect, type Handle } from '@sveltejs/kit';
+import { sequence } from '@sveltejs/kit/hooks';
+import { luciaFor } from '$lib/server/auth';
+import { decide } from '$lib/server/route-policy';
+import { securityHeaders } from '$lib/server/security-headers';
+import { closeDb } from '$lib/server/db';
+
+// Knex's pool keeps the event loop alive: close it when adapter-node shuts down.
+process.on('sveltekit:shutdown', () => {
+	void closeDb();
+});
+
+/** Resolve the session cookie to `locals.user`, refreshing or clearing the cookie as Lucia says. */
+const session: Handle = async ({ event, resolve }) => {
+	const lucia = luciaFor(event.url);
+	event.locals.apiToken = null;
+	const sessionId = event.cookies.get(lucia.sessionCookieName) ?? null;
+	if (!sessionId) {
+		event.locals.user = null;
+		event.locals.session = null;
+		return resolve(event);
+	}
+	const { session, user } = await lucia.validateSession(sessionId);
+	if (session?.fresh) {
+		const c = lucia.createSessionCookie(session.id);
+		event.cookies.set(c.name, c.value, { path: '.', ...c.attributes });
+	}
+	if (!session) {
+		const c = lucia.createBlankSessionCookie();
+		event.cookies.set(c.name, c.value, { path: '.', ...c.attributes });
+	}
+	event.locals.session = session;
+	event.locals.user = user
+		? {
+				id: user.id,
+				username: user.username,
+				displayName: user.displayName,
+				role: user.role,
+				timeZone: user.timeZone,
+				email: user.email
+			}
+		: null;
+	return resolve(event);
+};
+
+/** Enforce ROUTE_POLICY on every request that matched a route. */
+const authorize: Handle = async ({ event, resolve }) => {
+	const routeId = event.route.id;
+	if (routeId === null) return resolve(event); // no such route: SvelteKit answers 404
+	const isApi = routeId.startsWith('/api/');
+	const d = decide(routeId, event.request.method, event.url, event.locals.user?.role ?? null, !isApi);
+	if (d.allow) return resolve(event);
+	if (isApi) {
+		return new Response(JSON.stringify({ error: d.reason }), {
+			status: d.status,
+			headers: { 'content-type': 'application/json' }
+		});
+	}
+	if (d.status === 401 && event.request.method === 'GET') {
+		const next = event.url.pathname + event.url.search;
+		redirect(303, `/sign-in?next=${encodeURIComponent(next)}`);
+	}
+	error(d.status, d.reason);
+};
+
+const headers: Handle = async ({ event, resolve }) => {
+	const response = await resolve(event);
+	for (const [k, v] of Object.entries(securityHeaders())) {
+		if (!response.headers.has(k)) response.headers.set(k, v);
+	}
+	return response;
+};
+
+export const handle = sequence(headers, session, authorize);

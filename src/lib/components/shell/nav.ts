@@ -1,0 +1,16 @@
+import type { Role } from '$lib/server/roles';
+
+export interface NavItem {
+	href: string;
+	label: string;
+	/** The lowest role that sees the item. */
+	role: Role;
+	/** Route ids that count as being in this section. */
+	match: string[];
+}
+
+// Lockstep's own section names.
+export const NAV: NavItem[] = [
+	{ href: '/', label: 'Fleet', role: 'viewer', match: ['/'] },
+	{ href: '/admin/users', label: 'People', role: 'admin', match: ['/admin/users'] }
+];

@@ -1,0 +1,65 @@
+/**
+ * Who may do what, for every route: one table that `hooks.server.ts` enforces on every request
+ * (page loads, client-side data requests, form actions, API calls). A route missing from this table is
+ * refused — new routes must be added here, and the route × role matrix test walks the file system to
+ * make sure each one is.
+ */
+import type { Role } from './roles.ts';
+
+export type Access = 'public' | Role;
+
+export interface RoutePolicy {
+	GET?: Access;
+	POST?: Access;
+	PUT?: Access;
+	PATCH?: Access;
+	DELETE?: Access;
+	/** Form actions of a page, by name (`default` for the unnamed one). */
+	actions?: Record<string, Access>;
+	/** API routes that also accept a bearer API token of this scope. */
+	token?: 'ingest' | 'read';
+}
+
+export const ROUTE_POLICY: Record<string, RoutePolicy> = {
+	'/': { GET: 'viewer' },
+	'/sign-in': { GET: 'public', actions: { default: 'public' } },
+	'/sign-out': { GET: 'public', actions: { default: 'viewer' } },
+	'/account': { GET: 'viewer', actions: { password: 'viewer' } },
+	'/admin/users': {
+		GET: 'admin',
+		actions: { create: 'admin', reset: 'admin', role: 'admin', disable: 'admin', enable: 'admin' }
+	},
+	'/api/health': { GET: 'public' },
+	'/api/me': { GET: 'viewer' },
+	'/api/fleet': { GET: 'viewer', token: 'read' }
+};
+
+/** The form action named by a POST to a page: `?/name`, or `default`. */
+export function actionName(url: URL): string {
+	for (const key of url.searchParams.keys()) {
+		if (key.startsWith('/')) return key.slice(1);
+	}
+	return 'default';
+}
+
+export type Decision = { allow: true } | { allow: false; status: 401 | 403 | 405; reason: string };
+
+/**
+ * Decide a request. `routeId` is SvelteKit's route id, `role` the signed-in user's (or null),
+ * `isPage` whether the route is a page (so POST means a form action).
+ */
+export function decide(routeId: string, method: string, url: URL, role: Role | null, isPage: boolean): Decision {
+	const policy = ROUTE_POLICY[routeId];
+	if (!policy) return { allow: false, status: 403, reason: `route ${routeId} has no access policy` };
+	let access: Access | undefined;
+	if (isPage && method === 'POST') access = policy.actions?.[actionName(url)];
+	else if (method === 'HEAD') access = policy.GET;
+	else access = policy[method as 'GET' | 'POST' | 'PUT' | 'PATCH' | 'DELETE'];
+	if (access === undefined) return { allow: false, status: 405, reason: `${method} is not allowed here` };
+	if (access === 'public') return { allow: true };
+	if (!role) return { allow: false, status: 401, reason: 'Sign in first.' };
+	const order = ['viewer', 'engineer', 'admin'];
+	if (order.indexOf(role) < order.indexOf(access))
+		return { allow: false, status: 403, reason: `This needs the ${access} role; you are signed in as ${role}.` };
+	return { allow: true };
+}
