@@ -62,3 +62,20 @@ export function identifyLines(wavelengthNm: number, toleranceNm = 1.5): Emission
 		(a, b) => Math.abs(a.wavelengthNm - wavelengthNm) - Math.abs(b.wavelengthNm - wavelengthNm)
 	);
 }
+
+/**
+ * The emission lines an OES feature's name points at, nearest first: reads the wavelength from the
+ * name (see parseChannelWavelength in actinometry.ts) and calls {@link identifyLines}.
+ *
+ * @param featureName e.g. "oes_777.2"
+ * @param toleranceNm half-width of the match window in nm (default 1.5)
+ * @returns matching lines, nearest first; empty when the name carries no wavelength
+ * @example identifyFeature('oes_656.0')[0].species // → 'H I'
+ */
+export function identifyFeature(featureName: string, toleranceNm = 1.5): EmissionLine[] {
+	for (const m of featureName.matchAll(/(\d{3,4}(?:\.\d+)?)/g)) {
+		const v = Number(m[1]);
+		if (v >= 150 && v <= 1200) return identifyLines(v, toleranceNm);
+	}
+	return [];
+}

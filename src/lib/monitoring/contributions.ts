@@ -1,0 +1,108 @@
+import type { BaselineModel } from './model';
+import { assertFiniteRow, type Row } from './scaling';
+
+/**
+ * Which contributions to compute.
+ * - `rbc`: reconstruction-based contributions to T² and to Q (the drill-down default: they point at
+ *   the faulty variable even when variables are correlated).
+ * - `complete`: the complete decomposition of T² (parts sum to T²) with e_j² for Q (which is the
+ *   complete decomposition of Q, since I − PPᵀ is idempotent).
+ * - `q`: e_j² for Q only.
+ */
+export type ContributionKind = 'rbc' | 'complete' | 'q';
+
+/** Per-feature contributions, keyed by feature name. */
+export interface Contributions {
+	kind: ContributionKind;
+	/** Contributions to T² (null for kind `q`). */
+	t2: Record<string, number> | null;
+	/** Contributions to Q. */
+	q: Record<string, number>;
+}
+
+/** One row of a ranked contribution list. */
+export interface RankedContribution {
+	feature: string;
+	value: number;
+	/** value ÷ the sum over all features (0 when the sum is 0). */
+	share: number;
+}
+
+/**
+ * Per-feature contributions of a wafer to T² and Q.
+ *
+ * Formulas, with z the scaled row, t = Pᵀz, e = z − Pt, D = P Λ⁻¹ Pᵀ and ξ_j the j-th unit vector:
+ * - Q, plain and complete: c_j = e_j² (Σ_j c_j = Q) — Westerhuis, Gurden & Smilde (2000)
+ *   Chemometr. Intell. Lab. Syst. 51:95; Alcala & Qin (2011) J. Process Control 21:322, table 1.
+ * - T², complete decomposition: c_j = (ξ_jᵀ D^{1/2} z)² = (Σ_a P_ja t_a / √λ_a)² (Σ_j c_j = T²) —
+ *   Alcala & Qin (2011), eq. for CDC, and Alcala & Qin (2009).
+ * - RBC (reconstruction-based): RBC_j = (ξ_jᵀ M z)² / (ξ_jᵀ M ξ_j): for T², M = D, so
+ *   RBC_j = (Σ_a P_ja t_a/λ_a)² / Σ_a P_ja²/λ_a; for Q, M = I − PPᵀ, so RBC_j = e_j² / (1 − Σ_a P_ja²)
+ *   — Alcala & Qin (2009) "Reconstruction-based contribution for process monitoring", Automatica
+ *   45:1593, eqs. 11 and 14. Where ξ_jᵀMξ_j = 0 (a feature entirely in, or outside, the subspace)
+ *   the numerator is 0 too and the contribution is reported as 0.
+ *
+ * @param model the baseline
+ * @param x one value per feature, in `model.featureNames` order
+ * @param kind `rbc` (default), `complete` or `q`
+ * @returns contributions keyed by feature name
+ * @throws MonitoringInputError naming the feature when a value is missing or non-finite
+ * @example rankContributions(contributions(model, row).q)[0].feature // → the feature that drove Q
+ */
+export function contributions(model: BaselineModel, x: Row, kind: ContributionKind = 'rbc'): Contributions {
+	assertFiniteRow(x, model.featureNames);
+	const { p, k, mean, scale, loadings: P, eigenvalues: lam, featureNames } = model;
+	const z = new Float64Array(p);
+	const t = new Float64Array(k);
+	for (let j = 0; j < p; j++) {
+		z[j] = (x[j] - mean[j]) / scale[j];
+		for (let a = 0; a < k; a++) t[a] += P[j * k + a] * z[j];
+	}
+	const q: Record<string, number> = {};
+	const t2: Record<string, number> | null = kind === 'q' ? null : {};
+	const sqrtLam = Float64Array.from(lam.subarray(0, k), Math.sqrt);
+	for (let j = 0; j < p; j++) {
+		const o = j * k;
+		let fit = 0;
+		let leverage = 0;
+		let dz = 0;
+		let dHalfZ = 0;
+		let djj = 0;
+		for (let a = 0; a < k; a++) {
+			const pja = P[o + a];
+			fit += pja * t[a];
+			leverage += pja * pja;
+			dz += (pja * t[a]) / lam[a];
+			dHalfZ += (pja * t[a]) / sqrtLam[a];
+			djj += (pja * pja) / lam[a];
+		}
+		const e = z[j] - fit;
+		const f = featureNames[j];
+		if (kind === 'rbc') {
+			const m = 1 - leverage;
+			q[f] = m > 1e-12 ? (e * e) / m : 0;
+			t2![f] = djj > 0 ? (dz * dz) / djj : 0;
+		} else {
+			q[f] = e * e;
+			if (t2) t2[f] = dHalfZ * dHalfZ;
+		}
+	}
+	return { kind, t2, q };
+}
+
+/**
+ * Order contributions from largest to smallest, with each one's share of the total.
+ *
+ * @param values feature → contribution (non-negative)
+ * @param top keep only the first `top` (default: all)
+ * @returns ranked list
+ * @example rankContributions({ a: 1, b: 3 }) // → [{ feature: 'b', value: 3, share: 0.75 }, { feature: 'a', value: 1, share: 0.25 }]
+ */
+export function rankContributions(values: Readonly<Record<string, number>>, top?: number): RankedContribution[] {
+	let sum = 0;
+	for (const v of Object.values(values)) sum += v;
+	const ranked = Object.entries(values)
+		.map(([feature, value]) => ({ feature, value, share: sum > 0 ? value / sum : 0 }))
+		.sort((a, b) => b.value - a.value);
+	return top === undefined ? ranked : ranked.slice(0, top);
+}

@@ -1,0 +1,62 @@
+// Public surface of Lockstep's monitoring engine (pure TypeScript, no I/O). See README.md here.
+export { MonitoringInputError } from './errors';
+export { fUpper, chiSquareUpper, normalUpper, tTwoSided } from './quantiles';
+export {
+	assertFiniteRow,
+	fitScaling,
+	scaleRow,
+	DEFAULT_SCALE_FLOOR,
+	type Row,
+	type Scaling,
+	type ScalingMethod,
+	type ScaleFloor,
+	type LowVarianceFeature
+} from './scaling';
+export { decompose, type Decomposition, type PcaRoute } from './pca';
+export { brokenStickComponents } from './components';
+export {
+	t2Limit,
+	qLimit,
+	qLimitJacksonMudholkar,
+	qLimitBox,
+	residualMoments,
+	phiParameters,
+	phiLimit,
+	type QLimitMethod,
+	type ResidualMoments,
+	type PhiParameters
+} from './limits';
+export type { BaselineModel, ModelLimits } from './model';
+export { fitBaseline, type FitOptions } from './baseline';
+export { scoreWafer, scoreBatch, rowFromRecord, type WaferScore, type BatchScores } from './scoring';
+export {
+	contributions,
+	rankContributions,
+	type ContributionKind,
+	type Contributions,
+	type RankedContribution
+} from './contributions';
+export { modifiedZScores, MODIFIED_Z_THRESHOLD, type ModifiedZ } from './robust';
+export {
+	compareChambers,
+	type ChamberWafers,
+	type FleetOptions,
+	type FleetComparison,
+	type ChamberMatch,
+	type SeparatingFeature
+} from './fleet';
+export { referenceStats, type InControl } from './reference';
+export { ewma, type EwmaChart, type EwmaOptions } from './ewma';
+export { runRules, type RunRule, type RunRuleViolation, type RunRuleOptions } from './run-rules';
+export { forecastCrossing, type CrossingForecast, type ForecastOptions } from './forecast';
+export {
+	ACTINOMETRY_RATIOS,
+	parseChannelWavelength,
+	planActinometry,
+	actinometryRatios,
+	appendActinometry,
+	type ActinometryPlan,
+	type ActinometryRatioSpec
+} from './actinometry';
+export { EMISSION_LINES, identifyLines, identifyFeature, type EmissionLine } from './emission-lines';
+export { serializeModel, deserializeModel, modelToBlob, modelFromBlob } from './serialize';

@@ -1,0 +1,184 @@
+import { MonitoringInputError } from './errors';
+import { chiSquareUpper, fUpper, normalUpper } from './quantiles';
+
+/** Which approximation gives the Q (SPE) limit. */
+export type QLimitMethod = 'jackson-mudholkar' | 'box';
+
+/** Sums of powers of the residual eigenvalues: θ_i = Σ_{a>k} λ_a^i, i = 1, 2, 3. */
+export interface ResidualMoments {
+	theta1: number;
+	theta2: number;
+	theta3: number;
+	/** h0 = 1 − 2 θ1 θ3 / (3 θ2²) (Jackson & Mudholkar 1979). */
+	h0: number;
+}
+
+/**
+ * Hotelling T² upper control limit for a new (future) observation scored against a k-component
+ * model fitted on n golden observations.
+ *
+ * Formula: T²_α = k (n − 1)(n + 1) / (n (n − k)) · F_α(k, n − k).
+ * Source: Tracy, Young & Mason (1992) "Multivariate control charts for individual observations",
+ * J. Quality Technology 24:88, eq. for future observations; Jackson (1991) "A User's Guide to
+ * Principal Components", §1.7.
+ *
+ * @param k number of retained components (1 ≤ k ≤ n − 2)
+ * @param n number of golden observations
+ * @param alpha false-alarm probability, 0 < α < 1
+ * @returns the limit
+ * @throws RangeError if k, n or α is out of range
+ * @example t2Limit(11, 500, 0.01) // → 25.6902… (Tennessee Eastman d00, k = 11)
+ */
+export function t2Limit(k: number, n: number, alpha: number): number {
+	if (!(Number.isInteger(k) && Number.isInteger(n) && k >= 1 && k <= n - 2))
+		throw new RangeError(`T² limit needs integers 1 ≤ k ≤ n − 2, got k = ${k}, n = ${n}`);
+	return ((k * (n - 1) * (n + 1)) / (n * (n - k))) * fUpper(alpha, k, n - k);
+}
+
+/**
+ * θ1, θ2, θ3 and h0 of the residual eigenvalues λ_{k+1}, …, λ_r.
+ *
+ * Formula: θ_i = Σ_{a>k} λ_a^i; h0 = 1 − 2θ1θ3 / (3θ2²).
+ * Source: Jackson & Mudholkar (1979) "Control procedures for residuals associated with principal
+ * component analysis", Technometrics 21:341.
+ *
+ * @param residualEigenvalues eigenvalues not retained in the model (all > 0)
+ * @returns the moments
+ * @throws MonitoringInputError when there is no residual eigenvalue (Q would be identically 0)
+ * @example residualMoments([2, 1]).theta2 // → 5
+ */
+export function residualMoments(residualEigenvalues: ArrayLike<number>): ResidualMoments {
+	let theta1 = 0;
+	let theta2 = 0;
+	let theta3 = 0;
+	for (let a = 0; a < residualEigenvalues.length; a++) {
+		const l = residualEigenvalues[a];
+		theta1 += l;
+		theta2 += l * l;
+		theta3 += l * l * l;
+	}
+	if (!(theta1 > 0))
+		throw new MonitoringInputError(
+			'no residual variance left after the retained components: choose fewer components so Q has a limit'
+		);
+	return { theta1, theta2, theta3, h0: 1 - (2 * theta1 * theta3) / (3 * theta2 * theta2) };
+}
+
+/**
+ * Q (SPE) limit after Jackson & Mudholkar (1979).
+ *
+ * Formula: Q_α = θ1 [ z_α √(2θ2h0²) / θ1 + 1 + θ2h0(h0 − 1) / θ1² ]^(1/h0), z_α the upper normal
+ * quantile. (For the rare h0 < 0 the sign of the z term follows h0, since (Q/θ1)^h0 then decreases
+ * in Q; for h0 = 0 or a non-positive bracket the Box (1954) form is returned instead.)
+ * Source: Jackson & Mudholkar (1979) Technometrics 21:341, eq. 3.4; Jackson (1991) §2.7.
+ *
+ * @param residualEigenvalues eigenvalues not retained in the model
+ * @param alpha false-alarm probability, 0 < α < 1
+ * @returns the limit
+ * @throws MonitoringInputError when there is no residual eigenvalue; RangeError on a bad α
+ * @example qLimitJacksonMudholkar([1, 1, 1, 1], 0.05) // → about 9.3 (χ²₄ at 5 % is 9.49)
+ */
+export function qLimitJacksonMudholkar(residualEigenvalues: ArrayLike<number>, alpha: number): number {
+	const { theta1, theta2, h0 } = residualMoments(residualEigenvalues);
+	const z = normalUpper(alpha);
+	if (h0 === 0) return qLimitBox(residualEigenvalues, alpha);
+	const bracket = (z * h0 * Math.sqrt(2 * theta2)) / theta1 + 1 + (theta2 * h0 * (h0 - 1)) / (theta1 * theta1);
+	if (!(bracket > 0)) return qLimitBox(residualEigenvalues, alpha);
+	return theta1 * Math.pow(bracket, 1 / h0);
+}
+
+/**
+ * Q (SPE) limit from Box's (1954) scaled χ² approximation, as used by Nomikos & MacGregor (1995).
+ *
+ * Formula: Q_α = g · χ²_α(h), g = θ2 / θ1, h = θ1² / θ2 (h need not be an integer).
+ * Source: Box (1954) Ann. Math. Statist. 25:290, theorem 3.1; Nomikos & MacGregor (1995)
+ * "Multivariate SPC charts for monitoring batch processes", Technometrics 37:41.
+ *
+ * @param residualEigenvalues eigenvalues not retained in the model
+ * @param alpha false-alarm probability, 0 < α < 1
+ * @returns the limit
+ * @throws MonitoringInputError when there is no residual eigenvalue; RangeError on a bad α
+ * @example qLimitBox([1, 1, 1, 1], 0.05) // → 9.4877… (exactly χ²₄ at 5 %)
+ */
+export function qLimitBox(residualEigenvalues: ArrayLike<number>, alpha: number): number {
+	const { theta1, theta2 } = residualMoments(residualEigenvalues);
+	return (theta2 / theta1) * chiSquareUpper(alpha, (theta1 * theta1) / theta2);
+}
+
+/**
+ * Q limit by the chosen method (Jackson–Mudholkar by default).
+ *
+ * @param residualEigenvalues eigenvalues not retained in the model
+ * @param alpha false-alarm probability, 0 < α < 1
+ * @param method `jackson-mudholkar` (default) or `box`
+ * @returns the limit
+ * @throws as {@link qLimitJacksonMudholkar} / {@link qLimitBox}
+ * @example qLimit([1, 1, 1, 1], 0.05, 'box') // → 9.4877…
+ */
+export function qLimit(
+	residualEigenvalues: ArrayLike<number>,
+	alpha: number,
+	method: QLimitMethod = 'jackson-mudholkar'
+): number {
+	return method === 'box'
+		? qLimitBox(residualEigenvalues, alpha)
+		: qLimitJacksonMudholkar(residualEigenvalues, alpha);
+}
+
+/** Weights and distribution of the combined index φ. */
+export interface PhiParameters {
+	/** Weight of T² in φ: 1 / χ²_α(k). */
+	t2Weight: number;
+	/** Weight of Q in φ: 1 / Q_α. */
+	qWeight: number;
+	/** Scale g_φ of the χ² approximation. */
+	g: number;
+	/** Degrees of freedom h_φ of the χ² approximation. */
+	h: number;
+}
+
+/**
+ * Parameters of the combined index φ = Q / δ² + T² / τ² (Yue & Qin 2001).
+ *
+ * Formula: τ² = χ²_α(k), δ² = the Q limit at α; φ is approximately g_φ χ²(h_φ) with
+ * g_φ = (k/τ⁴ + θ2/δ⁴) / (k/τ² + θ1/δ²) and h_φ = (k/τ² + θ1/δ²)² / (k/τ⁴ + θ2/δ⁴).
+ * Source: Yue & Qin (2001) "Reconstruction-based fault identification using a combined index",
+ * Ind. Eng. Chem. Res. 40:4403, eqs. 17–20 (Box 1954 approximation).
+ *
+ * @param k number of retained components
+ * @param moments residual moments ({@link residualMoments})
+ * @param qLimitAlpha the Q limit δ² at the model's α
+ * @param alpha the model's α (for τ²)
+ * @returns weights, g_φ and h_φ
+ * @throws RangeError on a bad α or k
+ * @example phiParameters(2, residualMoments([1, 1]), 9.21, 0.01).t2Weight // → 1 / 9.2103…
+ */
+export function phiParameters(
+	k: number,
+	moments: ResidualMoments,
+	qLimitAlpha: number,
+	alpha: number
+): PhiParameters {
+	if (!(k >= 1)) throw new RangeError(`φ needs k ≥ 1, got ${k}`);
+	const t2Weight = 1 / chiSquareUpper(alpha, k);
+	const qWeight = 1 / qLimitAlpha;
+	const tr1 = k * t2Weight + moments.theta1 * qWeight;
+	const tr2 = k * t2Weight * t2Weight + moments.theta2 * qWeight * qWeight;
+	return { t2Weight, qWeight, g: tr2 / tr1, h: (tr1 * tr1) / tr2 };
+}
+
+/**
+ * Upper limit of the combined index φ at level α.
+ *
+ * Formula: φ_α = g_φ · χ²_α(h_φ).
+ * Source: Yue & Qin (2001) Ind. Eng. Chem. Res. 40:4403, eq. 20.
+ *
+ * @param params from {@link phiParameters}
+ * @param alpha false-alarm probability, 0 < α < 1
+ * @returns the limit
+ * @throws RangeError on a bad α
+ * @example phiLimit({ t2Weight: 0.1, qWeight: 0.1, g: 0.1, h: 20 }, 0.01) // → 3.7566…
+ */
+export function phiLimit(params: PhiParameters, alpha: number): number {
+	return params.g * chiSquareUpper(alpha, params.h);
+}

@@ -1,0 +1,56 @@
+import type { PcaRoute } from './pca';
+import type { PhiParameters, QLimitMethod, ResidualMoments } from './limits';
+import type { LowVarianceFeature, ScaleFloor, ScalingMethod } from './scaling';
+
+/** Control limits of a model at its α and at its warning α. */
+export interface ModelLimits {
+	t2: number;
+	q: number;
+	phi: number;
+	t2Warning: number;
+	qWarning: number;
+	phiWarning: number;
+}
+
+/**
+ * A fitted PCA baseline for one chamber × recipe × step. Plain data: it serializes to JSON
+ * ({@link serializeModel}) and to a binary blob ({@link modelToBlob}) without loss.
+ */
+export interface BaselineModel {
+	format: 'lockstep-pca-baseline';
+	version: 1;
+	featureNames: string[];
+	/** Golden rows used. */
+	n: number;
+	/** Features. */
+	p: number;
+	/** Retained components. */
+	k: number;
+	/** How k was chosen. */
+	componentsRule: 'fixed' | 'broken-stick';
+	scaling: ScalingMethod;
+	/** Golden mean of each feature. */
+	mean: Float64Array;
+	/** Golden standard deviation (n − 1) of each feature, before any floor. */
+	sd: Float64Array;
+	/** Divisor applied to each centred feature (after the near-zero floor). */
+	scale: Float64Array;
+	/** The near-zero-variance floor in force. */
+	scaleFloor: ScaleFloor;
+	/** Features whose golden variance was (near) zero and how they were treated. */
+	lowVarianceFeatures: LowVarianceFeature[];
+	/** Loadings P, p × k, flat row-major: entry (feature j, component a) at j·k + a. */
+	loadings: Float64Array;
+	/** All non-zero eigenvalues of the scaled golden covariance, largest first (length r). */
+	eigenvalues: Float64Array;
+	/** λ_a / Σλ for every non-zero eigenvalue. */
+	explainedVariance: Float64Array;
+	/** Which decomposition produced the model. */
+	route: PcaRoute;
+	alpha: number;
+	warningAlpha: number;
+	qMethod: QLimitMethod;
+	residual: ResidualMoments;
+	phi: PhiParameters;
+	limits: ModelLimits;
+}
