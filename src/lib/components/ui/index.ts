@@ -1,0 +1,12 @@
+export { default as Badge } from './Badge.svelte';
+export { default as Button } from './Button.svelte';
+export { default as Card } from './Card.svelte';
+export { default as EmptyState } from './EmptyState.svelte';
+export { default as Field } from './Field.svelte';
+export { default as Notice } from './Notice.svelte';
+export { default as ThemeToggle } from './ThemeToggle.svelte';
+export type { ButtonSize, ButtonVariant } from './Button.svelte';
+export type { Tone } from './Badge.svelte';
+export type { FieldControl } from './Field.svelte';
+export * from './theme';
+export { THEME_INIT_HTML, THEME_INIT_SCRIPT } from './theme-init';
