@@ -79,11 +79,11 @@ export const HEAT_STOPS: Readonly<Record<HeatTheme, HeatRamp>> = {
 };
 
 /**
- * CSS `background` for a bucket with no wafers: diagonal hatching in the theme's line colour over
+ * CSS `background` for a bucket with no wafers: diagonal hatching in the muted ink colour over
  * the panel, so "nothing ran" reads differently from "ran and was quiet" (which is a solid fill).
  */
 export const HEAT_EMPTY_BACKGROUND =
-	'repeating-linear-gradient(135deg, transparent 0 3px, var(--ls-line) 3px 4.5px), var(--ls-surface-1)';
+	'repeating-linear-gradient(135deg, transparent 0 3px, color-mix(in oklab, var(--ls-ink-3) 45%, transparent) 3px 4.5px), var(--ls-surface-1)';
 
 /**
  * The heatmap colour for a ratio r = statistic ÷ control limit.

@@ -1,3 +1,4 @@
+import { readFileSync } from 'node:fs';
 import { describe, expect, it } from 'vitest';
 import { THEME_INIT_HTML, THEME_INIT_SCRIPT } from '../../../src/lib/components/ui/theme-init';
 import { themeFromCookie, withHtmlTheme } from '../../../src/lib/components/ui/theme';
@@ -52,4 +53,9 @@ describe('server-side theme helpers', () => {
 		);
 		expect(withHtmlTheme('<p>no html tag</p>', 'light')).toBe('<p>no html tag</p>');
 	});
+});
+
+it('ships the same pre-paint script as a static file (for script-src self)', () => {
+	const file = readFileSync(new URL('../../../static/theme-init.js', import.meta.url), 'utf8');
+	expect(file.split('\n').slice(1).join('\n').trim()).toBe(THEME_INIT_SCRIPT);
 });

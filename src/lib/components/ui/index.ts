@@ -3,6 +3,7 @@ export { default as Button } from './Button.svelte';
 export { default as Card } from './Card.svelte';
 export { default as EmptyState } from './EmptyState.svelte';
 export { default as Field } from './Field.svelte';
+export { default as HeatLegend } from './HeatLegend.svelte';
 export { default as Notice } from './Notice.svelte';
 export { default as ThemeToggle } from './ThemeToggle.svelte';
 export type { ButtonSize, ButtonVariant } from './Button.svelte';

@@ -47,3 +47,14 @@ export function currentTheme(): Theme {
 export function withHtmlTheme(html: string, theme: Theme): string {
 	return html.replace(/(<html\b[^>]*?\sdata-theme=")(?:dark|light)(")/, `$1${theme}$2`);
 }
+
+/**
+ * Calls `listener` whenever <html data-theme> changes (the toggle, another script), for code that
+ * colours in JavaScript (heat cells, charts). Browser only. Returns the unsubscribe function, so it
+ * fits `$effect(() => onThemeChange((t) => (theme = t)))`.
+ */
+export function onThemeChange(listener: (theme: Theme) => void): () => void {
+	const observer = new MutationObserver(() => listener(currentTheme()));
+	observer.observe(document.documentElement, { attributes: true, attributeFilter: ['data-theme'] });
+	return () => observer.disconnect();
+}

@@ -1,0 +1,2 @@
+// Generated from src/lib/components/ui/theme-init.ts (THEME_INIT_SCRIPT); a test keeps the two equal.
+(function(){try{var d=document.documentElement,k="ls_theme",c="ls_theme",t=null;try{t=localStorage.getItem(k)}catch(e){}if(t!=='dark'&&t!=='light'){var m=document.cookie.match(new RegExp('(?:^|; )'+c+'=(dark|light)'));t=m?m[1]:null}if(t==='dark'||t==='light'){d.setAttribute('data-theme',t);if(document.cookie.indexOf(c+'='+t)<0)document.cookie=c+'='+t+'; Path=/; Max-Age=31536000; SameSite=Lax'}}catch(e){}})();
