@@ -51,6 +51,7 @@ def reference(name, X, tests, k, scaling, alpha, walpha, qmethod):
     def qlim(a):
         if qmethod == "box":
             return th2 / th1 * stats.chi2.ppf(1 - a, th1**2 / th2)
+        # textbook form (valid for h0 > 0, as in every set here; the engine also handles h0 < 0)
         z = stats.norm.ppf(1 - a)
         return th1 * (z * np.sqrt(2 * th2 * h0**2) / th1 + 1 + th2 * h0 * (h0 - 1) / th1**2) ** (1 / h0)
 
