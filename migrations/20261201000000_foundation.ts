@@ -224,6 +224,8 @@ export async function up(knex: Knex): Promise<void> {
 		t.double('phi_ratio');
 		t.double('worst_ratio').notNullable();
 		t.bigInteger('scored_at').notNullable();
+		// A wafer rescored against a newer baseline keeps its old score (history) with current = false.
+		t.boolean('current').notNullable().defaultTo(true);
 		t.unique(['wafer_step_id', 'baseline_id']);
 		t.index(['chamber_id', 'recipe_step_id', 'processed_at']);
 		t.index(['processed_at']);

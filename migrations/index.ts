@@ -5,9 +5,11 @@
  */
 import type { Knex } from 'knex';
 import * as foundation from './20261201000000_foundation.ts';
+import * as defaultCauseCodes from './20261201000100_default_cause_codes.ts';
 
 const migrations: Record<string, Knex.Migration> = {
-	'20261201000000_foundation.ts': foundation
+	'20261201000000_foundation.ts': foundation,
+	'20261201000100_default_cause_codes.ts': defaultCauseCodes
 };
 
 export const migrationSource: Knex.MigrationSource<string> = {

@@ -4,6 +4,7 @@ import { luciaFor } from '$lib/server/auth';
 import { decide } from '$lib/server/route-policy';
 import { securityHeaders } from '$lib/server/security-headers';
 import { closeDb } from '$lib/server/db';
+import { THEME_COOKIE, themeFromCookie, withHtmlTheme } from '$lib/components/ui/theme';
 
 // Knex's pool keeps the event loop alive: close it when adapter-node shuts down.
 process.on('sveltekit:shutdown', () => {
@@ -64,7 +65,10 @@ const authorize: Handle = async ({ event, resolve }) => {
 };
 
 const headers: Handle = async ({ event, resolve }) => {
-	const response = await resolve(event);
+	// The theme chosen with the toggle (cookie) is rendered by the server, so there is no flash and no
+	// inline script for the CSP to allow.
+	const theme = themeFromCookie(event.cookies.get(THEME_COOKIE));
+	const response = await resolve(event, { transformPageChunk: ({ html }) => withHtmlTheme(html, theme) });
 	for (const [k, v] of Object.entries(securityHeaders())) {
 		if (!response.headers.has(k)) response.headers.set(k, v);
 	}

@@ -2,10 +2,17 @@
  * Scoring on arrival: the ingest pipeline calls `scoreWaferSteps` inside the transaction that stores
  * the wafer-steps, so a wafer-step is never stored without its scoring state.
  *
- * A wafer-step whose chamber × recipe step has no active baseline is marked `no_baseline` (and shown as
- * such); with an active baseline it is scored, its hourly rollup updated and the alarm rules run.
+ * A wafer-step whose chamber × recipe step has no active baseline (or whose feature set differs from
+ * the baseline's) is marked `no_baseline` and shown as such; otherwise it is scored (T², Q, φ against
+ * the baseline's limits), its hourly rollup updated and the wafer alarm rules run.
  */
 import type { Knex } from 'knex';
+import { scoreBatch } from '../monitoring/index.ts';
+import { raiseOrExtend, evaluateRules, type ScoredPoint, type BaselineLimits } from './alarms.ts';
+import { getModel } from './baselines.ts';
+import { decodeValues } from './feature-values.ts';
+import { getSetting } from './settings.ts';
+import { now } from './time.ts';
 
 export interface NewWaferStep {
 	id: number;
@@ -23,26 +30,261 @@ export interface ScoringResult {
 	alarmsOpened: number[];
 }
 
-export async function scoreWaferSteps(trx: Knex.Transaction | Knex, rows: NewWaferStep[]): Promise<ScoringResult> {
+const HOUR = 3_600_000;
+const HISTORY = 50; // EWMA memory: (1 − 0.2)^50 ≈ 1e-5
+
+export async function scoreWaferSteps(
+	trx: Knex.Transaction | Knex,
+	rows: NewWaferStep[],
+	opts: { raiseAlarms?: boolean } = {}
+): Promise<ScoringResult> {
 	const result: ScoringResult = { scored: 0, noBaseline: 0, alarmsOpened: [] };
 	if (rows.length === 0) return result;
-	const keys = [...new Set(rows.map((r) => `${r.chamberId}:${r.recipeStepId}`))];
-	const active = new Set<string>();
-	for (const key of keys) {
-		const [chamberId, recipeStepId] = key.split(':').map(Number);
+	const policy = await getSetting('alarm_policy', trx);
+	const groups = new Map<string, NewWaferStep[]>();
+	for (const r of rows) {
+		const key = `${r.chamberId}:${r.recipeStepId}`;
+		const g = groups.get(key);
+		if (g) g.push(r);
+		else groups.set(key, [r]);
+	}
+	const unscored: number[] = [];
+	for (const group of groups.values()) {
+		group.sort((a, b) => a.processedAt - b.processedAt || a.id - b.id);
+		const { chamberId, recipeStepId } = group[0];
 		const b = await trx('baselines')
 			.where({ scope: 'chamber', chamber_id: chamberId, recipe_step_id: recipeStepId, status: 'active' })
-			.first('id');
-		if (b) active.add(key);
+			.first('id', 'feature_set_version', 't2_warning_limit', 'q_warning_limit', 'summary_json');
+		const fits = b ? group.filter((r) => r.featureSetVersion === b.feature_set_version) : [];
+		for (const r of group) if (!fits.includes(r)) unscored.push(r.id);
+		if (!b || fits.length === 0) continue;
+		const opened = await scoreGroup(trx, b, fits, policy, opts.raiseAlarms ?? true);
+		result.scored += fits.length;
+		result.alarmsOpened.push(...opened);
 	}
-	const without = rows.filter((r) => !active.has(`${r.chamberId}:${r.recipeStepId}`)).map((r) => r.id);
-	for (let i = 0; i < without.length; i += 500) {
-		await trx('wafer_steps').whereIn('id', without.slice(i, i + 500)).update({ scoring_state: 'no_baseline' });
-	}
-	result.noBaseline = without.length;
-	if (active.size > 0) {
-		// Scoring against active baselines arrives with the monitoring engine (src/lib/monitoring).
-		throw new Error('scoring against an active baseline is not wired yet');
-	}
+	for (let i = 0; i < unscored.length; i += 500)
+		await trx('wafer_steps').whereIn('id', unscored.slice(i, i + 500)).update({ scoring_state: 'no_baseline' });
+	result.noBaseline = unscored.length;
 	return result;
+}
+
+async function scoreGroup(
+	trx: Knex.Transaction | Knex,
+	b: { id: number; t2_warning_limit: number; q_warning_limit: number; summary_json: string },
+	rows: NewWaferStep[],
+	policy: Awaited<ReturnType<typeof getSetting<'alarm_policy'>>>,
+	raiseAlarms: boolean
+): Promise<number[]> {
+	const model = await getModel(b.id, trx);
+	const s = scoreBatch(model, rows.map((r) => r.values));
+	const { chamberId, recipeStepId } = rows[0];
+	const t = now();
+	const points: ScoredPoint[] = rows.map((r, i) => {
+		const t2Ratio = s.t2[i] / model.limits.t2;
+		const qRatio = s.q[i] / model.limits.q;
+		return { waferStepId: r.id, processedAt: r.processedAt, t2: s.t2[i], q: s.q[i], t2Ratio, qRatio, worstRatio: Math.max(t2Ratio, qRatio) };
+	});
+	const scoreRows = points.map((p, i) => ({
+		wafer_step_id: p.waferStepId,
+		baseline_id: b.id,
+		chamber_id: chamberId,
+		recipe_step_id: recipeStepId,
+		processed_at: p.processedAt,
+		t2: p.t2,
+		q: p.q,
+		t2_limit: model.limits.t2,
+		q_limit: model.limits.q,
+		t2_ratio: p.t2Ratio,
+		q_ratio: p.qRatio,
+		phi_ratio: s.phi[i] / model.limits.phi,
+		worst_ratio: p.worstRatio,
+		scored_at: t
+	}));
+	// History under this baseline, before these wafers, for the run and EWMA rules.
+	const history = (
+		await trx('scores')
+			.where({ baseline_id: b.id, chamber_id: chamberId, recipe_step_id: recipeStepId })
+			.andWhere('processed_at', '<', points[0].processedAt)
+			.orderBy('processed_at', 'desc')
+			.limit(HISTORY)
+			.select('wafer_step_id', 'processed_at', 't2', 'q', 't2_ratio', 'q_ratio', 'worst_ratio')
+	)
+		.reverse()
+		.map((h) => ({
+			waferStepId: h.wafer_step_id,
+			processedAt: Number(h.processed_at),
+			t2: h.t2,
+			q: h.q,
+			t2Ratio: h.t2_ratio,
+			qRatio: h.q_ratio,
+			worstRatio: h.worst_ratio
+		}));
+	const ids = rows.map((r) => r.id);
+	const rescoring = await hasScores(trx, ids);
+	for (let i = 0; i < ids.length; i += 500) {
+		const chunk = ids.slice(i, i + 500);
+		if (rescoring) await trx('scores').whereIn('wafer_step_id', chunk).update({ current: false });
+		await trx('wafer_steps').whereIn('id', chunk).update({ scoring_state: 'scored' });
+	}
+	for (let i = 0; i < scoreRows.length; i += 200)
+		await trx('scores').insert(scoreRows.slice(i, i + 200)).onConflict(['wafer_step_id', 'baseline_id']).merge(['current', 't2', 'q', 't2_ratio', 'q_ratio', 'phi_ratio', 'worst_ratio', 'scored_at']);
+	if (rescoring) await rebuildRollups(trx, chamberId, recipeStepId, points);
+	else await updateRollups(trx, chamberId, recipeStepId, points);
+	if (!raiseAlarms) return [];
+
+	const summary = JSON.parse(b.summary_json) as { ewmaReference?: BaselineLimits['ewmaReference'] };
+	const limits: BaselineLimits = {
+		id: b.id,
+		t2WarningLimit: b.t2_warning_limit,
+		qWarningLimit: b.q_warning_limit,
+		ewmaReference: summary.ewmaReference ?? null
+	};
+	const opened: number[] = [];
+	for (const v of evaluateRules(history, points, limits, policy)) {
+		const r = await raiseOrExtend(trx, {
+			chamberId,
+			recipeStepId,
+			baselineId: b.id,
+			rule: v.rule,
+			waferStepId: v.point.waferStepId,
+			at: v.point.processedAt,
+			ratio: v.point.worstRatio,
+			detail: v.detail
+		});
+		if (r.opened) opened.push(r.id);
+	}
+	return opened;
+}
+
+/** Merge points into the hourly rollups (read, combine, write: portable across SQLite and PostgreSQL). */
+async function updateRollups(trx: Knex.Transaction | Knex, chamberId: number, recipeStepId: number, points: ScoredPoint[]) {
+	const byHour = new Map<number, ScoredPoint[]>();
+	for (const p of points) {
+		const h = Math.floor(p.processedAt / HOUR) * HOUR;
+		const g = byHour.get(h);
+		if (g) g.push(p);
+		else byHour.set(h, [p]);
+	}
+	const hours = [...byHour.keys()];
+	const existing = new Map<number, { wafer_count: number; worst_ratio: number | null; worst_t2_ratio: number | null; worst_q_ratio: number | null; worst_wafer_step_id: number | null; alarm_wafer_count: number }>();
+	for (let i = 0; i < hours.length; i += 500) {
+		const rows = await trx('hourly_rollups')
+			.where({ chamber_id: chamberId, recipe_step_id: recipeStepId })
+			.whereIn('hour_at', hours.slice(i, i + 500));
+		for (const r of rows) existing.set(Number(r.hour_at), r);
+	}
+	const upserts = hours.map((h) => {
+		const pts = byHour.get(h)!;
+		const e = existing.get(h);
+		let worst = e?.worst_ratio ?? -Infinity;
+		let worstId = e?.worst_wafer_step_id ?? null;
+		let t2w = e?.worst_t2_ratio ?? -Infinity;
+		let qw = e?.worst_q_ratio ?? -Infinity;
+		let alarmCount = e?.alarm_wafer_count ?? 0;
+		for (const p of pts) {
+			if (p.worstRatio > worst) {
+				worst = p.worstRatio;
+				worstId = p.waferStepId;
+			}
+			t2w = Math.max(t2w, p.t2Ratio);
+			qw = Math.max(qw, p.qRatio);
+			if (p.worstRatio > 1) alarmCount++;
+		}
+		return {
+			chamber_id: chamberId,
+			recipe_step_id: recipeStepId,
+			hour_at: h,
+			wafer_count: (e?.wafer_count ?? 0) + pts.length,
+			worst_ratio: worst,
+			worst_t2_ratio: t2w,
+			worst_q_ratio: qw,
+			worst_wafer_step_id: worstId,
+			alarm_wafer_count: alarmCount
+		};
+	});
+	for (let i = 0; i < upserts.length; i += 100)
+		await trx('hourly_rollups').insert(upserts.slice(i, i + 100)).onConflict(['chamber_id', 'recipe_step_id', 'hour_at']).merge();
+}
+
+async function hasScores(trx: Knex.Transaction | Knex, ids: number[]): Promise<boolean> {
+	for (let i = 0; i < ids.length; i += 500) {
+		const r = await trx('scores').whereIn('wafer_step_id', ids.slice(i, i + 500)).first('id');
+		if (r) return true;
+	}
+	return false;
+}
+
+/** Recompute the rollups of the hours these points fall in from the current scores. */
+async function rebuildRollups(trx: Knex.Transaction | Knex, chamberId: number, recipeStepId: number, points: ScoredPoint[]) {
+	const hours = [...new Set(points.map((p) => Math.floor(p.processedAt / HOUR) * HOUR))].sort((a, b) => a - b);
+	for (let i = 0; i < hours.length; i += 200) {
+		const chunk = hours.slice(i, i + 200);
+		await trx('hourly_rollups').where({ chamber_id: chamberId, recipe_step_id: recipeStepId }).whereIn('hour_at', chunk).delete();
+		const from = chunk[0];
+		const to = chunk[chunk.length - 1] + HOUR;
+		const current = await trx('scores')
+			.where({ chamber_id: chamberId, recipe_step_id: recipeStepId, current: true })
+			.andWhere('processed_at', '>=', from)
+			.andWhere('processed_at', '<', to)
+			.select('wafer_step_id', 'processed_at', 't2', 'q', 't2_ratio', 'q_ratio', 'worst_ratio');
+		const set = new Set(chunk);
+		const pts = current
+			.filter((c) => set.has(Math.floor(Number(c.processed_at) / HOUR) * HOUR))
+			.map((c) => ({ waferStepId: c.wafer_step_id, processedAt: Number(c.processed_at), t2: c.t2, q: c.q, t2Ratio: c.t2_ratio, qRatio: c.q_ratio, worstRatio: c.worst_ratio }));
+		await updateRollups(trx, chamberId, recipeStepId, pts);
+	}
+}
+
+/**
+ * Rescore a chamber × recipe step's wafers since `since` against its active baseline, in chunks of
+ * `chunk` wafer-steps, each in its own transaction (a crash leaves whole chunks done, and running it
+ * again finishes the job). Alarms are not raised retroactively unless asked.
+ */
+export async function rescoreSince(
+	k: Knex,
+	q: { chamberId: number; recipeStepId: number; since: number; raiseAlarms?: boolean; chunk?: number },
+	onProgress?: (done: number, total: number) => void
+): Promise<{ rescored: number }> {
+	const total = Number(
+		(
+			await k('wafer_steps')
+				.where({ chamber_id: q.chamberId, recipe_step_id: q.recipeStepId })
+				.andWhere('processed_at', '>=', q.since)
+				.count({ n: '*' })
+				.first()
+		)?.n ?? 0
+	);
+	const size = q.chunk ?? 1000;
+	let done = 0;
+	let lastAt = q.since - 1;
+	let lastId = 0;
+	for (;;) {
+		const rows = await k('wafer_steps')
+			.where({ chamber_id: q.chamberId, recipe_step_id: q.recipeStepId })
+			.andWhere((w) => w.where('processed_at', '>', lastAt).orWhere((x) => x.where('processed_at', lastAt).andWhere('id', '>', lastId)))
+			.orderBy([{ column: 'processed_at' }, { column: 'id' }])
+			.limit(size)
+			.select('id', 'chamber_id', 'recipe_step_id', 'processed_at', 'feature_set_version', 'feature_values');
+		if (rows.length === 0) break;
+		await k.transaction((trx) =>
+			scoreWaferSteps(
+				trx,
+				rows.map((r) => ({
+					id: r.id,
+					chamberId: r.chamber_id,
+					recipeStepId: r.recipe_step_id,
+					processedAt: Number(r.processed_at),
+					featureSetVersion: r.feature_set_version,
+					values: decodeValues(r.feature_values)
+				})),
+				{ raiseAlarms: q.raiseAlarms ?? false }
+			)
+		);
+		done += rows.length;
+		const last = rows[rows.length - 1];
+		lastAt = Number(last.processed_at);
+		lastId = last.id;
+		onProgress?.(done, total);
+	}
+	return { rescored: done };
 }
