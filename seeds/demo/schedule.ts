@@ -1,0 +1,115 @@
+import { stepPhysics } from './recipes';
+import { stream } from './rng';
+import type { DemoScenario } from './types';
+
+const DAY_MS = 86_400_000;
+const HOUR_MS = 3_600_000;
+
+/** A low-volume line: about 17.5 wafers per chamber per day reach the demo (≈ 27k wafer-steps a month). */
+export const WAFERS_PER_CHAMBER_DAY = 17.5;
+/** Wafer handling between steps' RF time (transfer, pump-down, stabilisation), s. */
+const OVERHEAD_S = 100;
+/** Chamber out of production after each kind of maintenance, h. */
+export const DOWNTIME_H = { wet_clean: 5, part_swap: 3, pm: 2 } as const;
+
+export interface ScheduledWafer {
+	waferId: string;
+	lotId: string;
+	slot: number;
+	recipe: string;
+	chamberCode: string;
+	startMs: number;
+	/** Lot-to-lot load deviation (pattern density, film thickness), shared by the lot's wafers. */
+	lotLoad: number;
+}
+
+/** Nominal RF-on seconds of one wafer of a recipe (sum of its steps). */
+export function rfSecondsPerWafer(scenario: DemoScenario, recipe: string): number {
+	const r = scenario.recipes.find((x) => x.code === recipe);
+	if (!r) throw new Error(`demo: unknown recipe ${recipe}`);
+	return r.steps.reduce((s, st) => s + stepPhysics(recipe, st.name).durationS, 0);
+}
+
+/**
+ * Lots arrive at each tool at random (Gamma-distributed gaps), 25 wafers in most lots, fewer in some; each
+ * wafer goes, in slot order, to the tool's chamber that can start it first, skipping chambers down for
+ * maintenance. Returns each chamber's wafers in start order. Lot ids are numbered fab-wide in arrival
+ * order.
+ */
+export function scheduleWafers(scenario: DemoScenario, seed: number): Map<string, ScheduledWafer[]> {
+	const startMs = scenario.start.getTime();
+	const endMs = scenario.end.getTime();
+	const down = new Map<string, [number, number][]>();
+	for (const m of scenario.maintenance) {
+		const w: [number, number] = [m.at.getTime(), m.at.getTime() + DOWNTIME_H[m.kind] * HOUR_MS];
+		down.set(m.chamberCode, [...(down.get(m.chamberCode) ?? []), w]);
+	}
+	type Lot = { tool: string; arrival: number; size: number; recipe: string; load: number };
+	const lots: Lot[] = [];
+	for (const tool of scenario.tools) {
+		const chambers = scenario.chambers.filter((c) => c.toolCode === tool.code);
+		const recipes = [...new Set(chambers.flatMap((c) => c.recipes))].sort();
+		if (recipes.length === 0) continue;
+		const rng = stream(seed, `lots:${tool.code}`);
+		const meanGapMs = (25 / (chambers.length * WAFERS_PER_CHAMBER_DAY)) * DAY_MS;
+		// Gaps between lots: Gamma(4) around the mean (steadier than Poisson arrivals, as WIP release is).
+		const gap = () =>
+			(meanGapMs / 4) *
+			-Math.log((1 - rng.uniform()) * (1 - rng.uniform()) * (1 - rng.uniform()) * (1 - rng.uniform()));
+		for (let t = startMs + rng.uniform() * meanGapMs; t < endMs; t += gap()) {
+			const size = rng.uniform() < 0.85 ? 25 : rng.int(8, 24);
+			const recipe = recipes[rng.int(0, recipes.length - 1)];
+			lots.push({
+				tool: tool.code,
+				arrival: Math.round(t / 1000) * 1000,
+				size,
+				recipe,
+				load: 0.04 * rng.normal()
+			});
+		}
+	}
+	lots.sort((a, b) => a.arrival - b.arrival || a.tool.localeCompare(b.tool));
+
+	const out = new Map<string, ScheduledWafer[]>(scenario.chambers.map((c) => [c.code, []]));
+	const freeAt = new Map<string, number>(scenario.chambers.map((c) => [c.code, startMs]));
+	lots.forEach((lot, i) => {
+		const lotId = `L${26000 + i}`;
+		const cycleMs = (rfSecondsPerWafer(scenario, lot.recipe) + OVERHEAD_S) * 1000;
+		const able = scenario.chambers.filter((c) => c.toolCode === lot.tool && c.recipes.includes(lot.recipe));
+		for (let slot = 1; slot <= lot.size; slot++) {
+			const ready = lot.arrival + (slot - 1) * 40_000;
+			let best: { code: string; at: number } | null = null;
+			for (const c of able) {
+				const at = firstFreeStart(Math.max(ready, freeAt.get(c.code)!), cycleMs, down.get(c.code) ?? []);
+				if (!best || at < best.at) best = { code: c.code, at };
+			}
+			if (!best || best.at + cycleMs > endMs) continue;
+			freeAt.set(best.code, best.at + cycleMs);
+			out.get(best.code)!.push({
+				waferId: `${lotId}-${String(slot).padStart(2, '0')}`,
+				lotId,
+				slot,
+				recipe: lot.recipe,
+				chamberCode: best.code,
+				startMs: best.at,
+				lotLoad: lot.load
+			});
+		}
+	});
+	return out;
+}
+
+/** Earliest start ≥ t whose cycle does not overlap any downtime window. */
+function firstFreeStart(t: number, cycleMs: number, windows: [number, number][]): number {
+	let at = t;
+	for (let moved = true; moved;) {
+		moved = false;
+		for (const [a, b] of windows) {
+			if (at < b && at + cycleMs > a) {
+				at = b;
+				moved = true;
+			}
+		}
+	}
+	return at;
+}

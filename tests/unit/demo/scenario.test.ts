@@ -1,0 +1,96 @@
+import { describe, expect, it } from 'vitest';
+import { buildScenario, DEFAULT_END, EPISODE_CHAMBERS } from '../../../seeds/demo/index';
+
+const DAY = 86_400_000;
+
+describe('demo scenario', () => {
+	const sc = buildScenario();
+
+	it('is the same for the same options and changes with the seed', () => {
+		expect(JSON.stringify(buildScenario())).toBe(JSON.stringify(sc));
+		const other = buildScenario({ seed: 7 });
+		expect(other.maintenance.map((m) => m.at.getTime())).not.toEqual(
+			sc.maintenance.map((m) => m.at.getTime())
+		);
+	});
+
+	it('spans 30 days ending at the fixed default end, or at the end passed in', () => {
+		expect(sc.end.toISOString()).toBe(DEFAULT_END.toISOString());
+		expect(sc.end.getTime() - sc.start.getTime()).toBe(30 * DAY);
+		const s2 = buildScenario({ end: new Date('2027-02-01T12:34:56Z'), days: 21 });
+		expect(s2.end.toISOString()).toBe('2027-02-01T12:34:00.000Z');
+		expect(s2.end.getTime() - s2.start.getTime()).toBe(21 * DAY);
+	});
+
+	it('refuses options it cannot honour', () => {
+		expect(() => buildScenario({ seed: 1.5 })).toThrow(RangeError);
+		expect(() => buildScenario({ days: 5 })).toThrow(/days/);
+		expect(() => buildScenario({ end: new Date('not a date') })).toThrow(/end/);
+	});
+
+	it('has ≥ 3 areas, ≥ 24 chambers with fab-wide unique codes, each on a known tool', () => {
+		expect(sc.areas.length).toBeGreaterThanOrEqual(3);
+		expect(sc.chambers.length).toBeGreaterThanOrEqual(24);
+		expect(new Set(sc.chambers.map((c) => c.code)).size).toBe(sc.chambers.length);
+		const tools = new Set(sc.tools.map((t) => t.code));
+		for (const c of sc.chambers) expect(tools.has(c.toolCode)).toBe(true);
+		const areas = new Set(sc.areas.map((a) => a.code));
+		for (const t of sc.tools) expect(areas.has(t.areaCode)).toBe(true);
+	});
+
+	it('has 3 recipes × 2 steps, each recipe run on ≥ 8 chambers', () => {
+		expect(sc.recipes.length).toBeGreaterThanOrEqual(3);
+		for (const r of sc.recipes) {
+			expect(r.steps.length).toBeGreaterThanOrEqual(2);
+			expect(sc.chambers.filter((c) => c.recipes.includes(r.code)).length).toBeGreaterThanOrEqual(8);
+			for (const st of r.steps) expect(sc.features[r.code][st.name]).toBeDefined();
+		}
+	});
+
+	it('has people in every role and logs maintenance only by them', () => {
+		expect(new Set(sc.people.map((p) => p.role))).toEqual(new Set(['viewer', 'engineer', 'admin']));
+		const names = new Set(sc.people.map((p) => p.username));
+		for (const m of sc.maintenance) expect(names.has(m.byUsername)).toBe(true);
+	});
+
+	it('wet-cleans every chamber every 5–9 days, staggered, from a clean before the window', () => {
+		const firstInWindow = new Set<number>();
+		for (const c of sc.chambers) {
+			const cleans = sc.maintenance
+				.filter((m) => m.chamberCode === c.code && m.kind === 'wet_clean')
+				.map((m) => m.at.getTime());
+			expect(cleans[0]).toBeLessThan(sc.start.getTime());
+			const inWindow = cleans.filter((t) => t >= sc.start.getTime());
+			expect(inWindow.length).toBeGreaterThanOrEqual(2);
+			firstInWindow.add(Math.floor((inWindow[0] - sc.start.getTime()) / DAY));
+			// The He-leak chamber's clean waits for the seal repair (the story), so its gap may reach 13 days.
+			const maxGap = c.code === EPISODE_CHAMBERS.heLeak ? 13 * DAY : 9 * DAY;
+			for (let i = 1; i < cleans.length; i++) expect(cleans[i] - cleans[i - 1]).toBeLessThanOrEqual(maxGap);
+		}
+		expect(firstInWindow.size).toBeGreaterThanOrEqual(4);
+		const sorted = sc.maintenance.map((m) => m.at.getTime());
+		expect([...sorted].sort((a, b) => a - b)).toEqual(sorted);
+	});
+
+	it('documents the four episodes on four different chambers, inside the window', () => {
+		const kinds = sc.episodes.map((e) => e.kind).sort();
+		expect(kinds).toEqual(['air_leak', 'he_backside_leak', 'o2_mfc_drift', 'part_swap_offset']);
+		expect(new Set(sc.episodes.map((e) => e.chamberCode)).size).toBe(4);
+		expect(Object.values(EPISODE_CHAMBERS).sort()).toEqual(sc.episodes.map((e) => e.chamberCode).sort());
+		for (const e of sc.episodes) {
+			expect(e.start.getTime()).toBeGreaterThan(sc.start.getTime());
+			expect(e.start.getTime()).toBeLessThan(sc.end.getTime());
+			expect(e.title.length).toBeGreaterThan(10);
+			expect(e.whatToLookFor.length).toBeGreaterThan(40);
+		}
+		const air = sc.episodes.find((e) => e.kind === 'air_leak')!;
+		expect(sc.end.getTime() - air.start.getTime()).toBeLessThanOrEqual(5 * DAY);
+		// The swap and the He-leak repair are in the maintenance log.
+		const swap = sc.episodes.find((e) => e.kind === 'part_swap_offset')!;
+		expect(sc.maintenance.some((m) => m.kind === 'part_swap' && m.chamberCode === swap.chamberCode)).toBe(
+			true
+		);
+		const he = sc.episodes.find((e) => e.kind === 'he_backside_leak')!;
+		expect(sc.maintenance.some((m) => m.kind === 'pm' && m.at.getTime() === he.end!.getTime())).toBe(true);
+	});
+});
