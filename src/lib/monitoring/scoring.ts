@@ -2,6 +2,11 @@ import { MonitoringInputError } from './errors';
 import type { BaselineModel } from './model';
 import { assertFiniteRow, type Row } from './scaling';
 
+// Scoring runs for every wafer of every chamber, so it is written for speed: loadings are also kept
+// component-major (k × p, cached per model, never serialized) so each score t_a is one long dot
+// product, two components share a pass, and validity is checked once per wafer (a non-finite input
+// always makes T² or Q non-finite), with a scan for the culprit only then.
+
 /** Everything the engine says about one wafer against one baseline. */
 export interface WaferScore {
 	/** Hotelling T² in the model plane: Σ_a t_a² / λ_a. */
@@ -54,11 +59,97 @@ export function rowFromRecord(model: BaselineModel, values: Readonly<Record<stri
 	return x;
 }
 
+interface Kernel {
+	p: number;
+	k: number;
+	mean: Float64Array;
+	invScale: Float64Array;
+	/** Loadings component-major: component a, feature j at a·p + j. */
+	pt: Float64Array;
+	lam: Float64Array;
+}
+
+const kernels = new WeakMap<BaselineModel, Kernel>();
+
+function kernelOf(model: BaselineModel): Kernel {
+	let kn = kernels.get(model);
+	if (kn && kn.lam === model.eigenvalues && kn.mean === model.mean) return kn;
+	const { p, k, loadings } = model;
+	if (loadings.length !== p * k) throw new MonitoringInputError('model loadings do not match p × k');
+	const pt = new Float64Array(p * k);
+	for (let j = 0; j < p; j++) for (let a = 0; a < k; a++) pt[a * p + j] = loadings[j * k + a];
+	kn = { p, k, mean: model.mean, invScale: Float64Array.from(model.scale, (s) => 1 / s), pt, lam: model.eigenvalues };
+	kernels.set(model, kn);
+	return kn;
+}
+
+/** z = (x − mean)/scale, t = Pᵀz, e = z − Pt; returns T² and Q. `x` is read from `off`. */
+function project(kn: Kernel, x: Float64Array, off: number, z: Float64Array, t: Float64Array, e: Float64Array): [number, number] {
+	const { p, k, mean, invScale, pt, lam } = kn;
+	for (let j = 0; j < p; j++) {
+		const v = (x[off + j] - mean[j]) * invScale[j];
+		z[j] = v;
+		e[j] = v;
+	}
+	let a = 0;
+	for (; a + 1 < k; a += 2) {
+		const o0 = a * p;
+		const o1 = o0 + p;
+		let s0 = 0;
+		let s1 = 0;
+		for (let j = 0; j < p; j++) {
+			const zj = z[j];
+			s0 += pt[o0 + j] * zj;
+			s1 += pt[o1 + j] * zj;
+		}
+		t[a] = s0;
+		t[a + 1] = s1;
+	}
+	for (; a < k; a++) {
+		const o = a * p;
+		let s0 = 0;
+		for (let j = 0; j < p; j++) s0 += pt[o + j] * z[j];
+		t[a] = s0;
+	}
+	let t2 = 0;
+	for (let b = 0; b < k; b++) t2 += (t[b] * t[b]) / lam[b];
+	a = 0;
+	for (; a + 1 < k; a += 2) {
+		const o0 = a * p;
+		const o1 = o0 + p;
+		const t0 = t[a];
+		const t1 = t[a + 1];
+		for (let j = 0; j < p; j++) e[j] -= pt[o0 + j] * t0 + pt[o1 + j] * t1;
+	}
+	for (; a < k; a++) {
+		const o = a * p;
+		const t0 = t[a];
+		for (let j = 0; j < p; j++) e[j] -= pt[o + j] * t0;
+	}
+	let q = 0;
+	for (let j = 0; j < p; j++) q += e[j] * e[j];
+	return [t2, q];
+}
+
+/** Copy a row into a Float64Array (validating it), unless it already is one of the right length. */
+function asFloat64(x: Row, model: BaselineModel, buf: Float64Array, rowIndex?: number): Float64Array {
+	if (x instanceof Float64Array && x.length === model.p) return x;
+	assertFiniteRow(x, model.featureNames, rowIndex);
+	for (let j = 0; j < model.p; j++) buf[j] = x[j];
+	return buf;
+}
+
+function checkFinite(t2: number, q: number, x: Float64Array, off: number, model: BaselineModel, row?: number): void {
+	if (Number.isFinite(t2) && Number.isFinite(q)) return;
+	assertFiniteRow(x.subarray(off, off + model.p), model.featureNames, row);
+	// Finite inputs so large that squares overflow: report the statistics as +∞ (far out of limits).
+}
+
 /**
  * Score one wafer: T², Q, φ, their limits and ratios, scores and residuals.
  *
  * Formula: z = (x − mean)/scale; t = Pᵀz; T² = Σ_a t_a²/λ_a; e = z − P t; Q = Σ_j e_j²;
- * φ = Q/δ² + T²/χ²_α(k). Plain loops over the flat loadings (no matrix objects per wafer).
+ * φ = Q/δ² + T²/χ²_α(k). Plain loops over flat typed arrays (no matrix objects per wafer).
  * Source: Jackson (1991) "A User's Guide to Principal Components", §1.7 (T²) and §2.7 (Q);
  * Yue & Qin (2001) Ind. Eng. Chem. Res. 40:4403 (φ).
  *
@@ -70,28 +161,15 @@ export function rowFromRecord(model: BaselineModel, values: Readonly<Record<stri
  * @example scoreWafer(model, row).t2Ratio > 1 // → true when T² is out of limits
  */
 export function scoreWafer(model: BaselineModel, x: Row): WaferScore {
-	assertFiniteRow(x, model.featureNames);
-	const { p, k, mean, scale, loadings: P, eigenvalues: lam, limits } = model;
+	const kn = kernelOf(model);
+	const { p, k } = model;
+	const xs = asFloat64(x, model, new Float64Array(p));
 	const z = new Float64Array(p);
-	const t = new Float64Array(k);
-	for (let j = 0; j < p; j++) {
-		const zj = (x[j] - mean[j]) / scale[j];
-		z[j] = zj;
-		const o = j * k;
-		for (let a = 0; a < k; a++) t[a] += P[o + a] * zj;
-	}
-	let t2 = 0;
-	for (let a = 0; a < k; a++) t2 += (t[a] * t[a]) / lam[a];
 	const e = new Float64Array(p);
-	let q = 0;
-	for (let j = 0; j < p; j++) {
-		const o = j * k;
-		let fit = 0;
-		for (let a = 0; a < k; a++) fit += P[o + a] * t[a];
-		const ej = z[j] - fit;
-		e[j] = ej;
-		q += ej * ej;
-	}
+	const t = new Float64Array(k);
+	const [t2, q] = project(kn, xs, 0, z, t, e);
+	checkFinite(t2, q, xs, 0, model);
+	const limits = model.limits;
 	const phi = q * model.phi.qWeight + t2 * model.phi.t2Weight;
 	const t2Ratio = t2 / limits.t2;
 	const qRatio = q / limits.q;
@@ -126,8 +204,8 @@ export interface BatchScores {
 }
 
 /**
- * Score many wafers fast: T², Q and φ only (call {@link scoreWafer} or {@link contributions} for the
- * detail of a flagged one). Buffers are allocated once per batch.
+ * Score many wafers fast: T², Q and φ only (call {@link scoreWafer} or `contributions` for the
+ * detail of a flagged one). Buffers are allocated once per batch; results equal scoreWafer's exactly.
  *
  * Formula: as {@link scoreWafer}.
  * Source: as {@link scoreWafer}.
@@ -140,47 +218,27 @@ export interface BatchScores {
  * @example scoreBatch(model, rows).q[3] // → Q of the fourth wafer
  */
 export function scoreBatch(model: BaselineModel, rows: readonly Row[] | Float64Array): BatchScores {
-	const { p, k, mean, scale, loadings: P, eigenvalues: lam } = model;
+	const kn = kernelOf(model);
+	const { p, k } = model;
 	const flat = rows instanceof Float64Array;
 	if (flat && rows.length % p !== 0)
 		throw new MonitoringInputError(`flat batch has ${rows.length} values, not a multiple of ${p} features`);
 	const m = flat ? rows.length / p : rows.length;
 	const out: BatchScores = { t2: new Float64Array(m), q: new Float64Array(m), phi: new Float64Array(m) };
 	const z = new Float64Array(p);
+	const e = new Float64Array(p);
 	const t = new Float64Array(k);
+	const buf = new Float64Array(p);
 	const { qWeight, t2Weight } = model.phi;
 	for (let i = 0; i < m; i++) {
-		let x: Row;
+		let src: Float64Array;
 		let off = 0;
 		if (flat) {
-			x = rows;
+			src = rows;
 			off = i * p;
-		} else {
-			x = (rows as readonly Row[])[i];
-			if (x == null || x.length !== p) assertFiniteRow(x, model.featureNames, i);
-		}
-		t.fill(0);
-		for (let j = 0; j < p; j++) {
-			const v = x[off + j];
-			if (!Number.isFinite(v)) {
-				if (flat) assertFiniteRow((rows as Float64Array).subarray(off, off + p), model.featureNames, i);
-				else assertFiniteRow(x, model.featureNames, i);
-			}
-			const zj = (v - mean[j]) / scale[j];
-			z[j] = zj;
-			const o = j * k;
-			for (let a = 0; a < k; a++) t[a] += P[o + a] * zj;
-		}
-		let t2 = 0;
-		for (let a = 0; a < k; a++) t2 += (t[a] * t[a]) / lam[a];
-		let q = 0;
-		for (let j = 0; j < p; j++) {
-			const o = j * k;
-			let fit = 0;
-			for (let a = 0; a < k; a++) fit += P[o + a] * t[a];
-			const ej = z[j] - fit;
-			q += ej * ej;
-		}
+		} else src = asFloat64((rows as readonly Row[])[i], model, buf, i);
+		const [t2, q] = project(kn, src, off, z, t, e);
+		checkFinite(t2, q, src, off, model, i);
 		out.t2[i] = t2;
 		out.q[i] = q;
 		out.phi[i] = q * qWeight + t2 * t2Weight;
