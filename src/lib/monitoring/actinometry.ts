@@ -27,8 +27,11 @@ export const ACTINOMETRY_RATIOS: readonly ActinometryRatioSpec[] = [
  * The wavelength in nm named by an OES feature ("oes_777.4", "OES 777.42nm", "wl750.4"): the first
  * number of 3–4 digits (with optional decimals) between 150 and 1,200 is taken.
  *
+ * Source: common practice (channels named by their centre wavelength in nm).
+ *
  * @param featureName the feature's name
  * @returns the wavelength, or null when the name carries none
+ * @throws nothing
  * @example parseChannelWavelength('oes_777.4nm') // → 777.4
  */
 export function parseChannelWavelength(featureName: string): number | null {
@@ -60,6 +63,7 @@ export interface ActinometryPlan {
  * @param featureNames the features (OES channels named with their wavelength, see {@link parseChannelWavelength})
  * @param toleranceNm match half-width in nm (default 1.5; fab OES resolves 1–2 nm, common practice)
  * @returns the plan (possibly with no ratio)
+ * @throws nothing
  * @example planActinometry(['oes_750.5', 'oes_777.3']).ratios[0].name // → 'ratio_O777_Ar750'
  */
 export function planActinometry(featureNames: readonly string[], toleranceNm = 1.5): ActinometryPlan {
@@ -96,7 +100,8 @@ export function planActinometry(featureNames: readonly string[], toleranceNm = 1
 /**
  * The actinometry ratios of one row: I(numerator channel) / I(argon channel).
  *
- * Formula: R = I_X / I_Ar (Coburn & Chen 1980, J. Appl. Phys. 51:3134).
+ * Formula: R = I_X / I_Ar.
+ * Source: Coburn & Chen (1980) J. Appl. Phys. 51:3134.
  *
  * @param plan from {@link planActinometry}
  * @param row the row's values, in the features' order
@@ -126,6 +131,8 @@ export function actinometryRatios(plan: ActinometryPlan, row: Row): Record<strin
 
 /**
  * Append the plan's ratios to a row as extra features (names: `plan.ratios[i].name`).
+ *
+ * Formula and source: as {@link actinometryRatios}.
  *
  * @param plan from {@link planActinometry}
  * @param row the row

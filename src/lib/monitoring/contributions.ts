@@ -31,7 +31,7 @@ export interface RankedContribution {
 /**
  * Per-feature contributions of a wafer to T² and Q.
  *
- * Formulas, with z the scaled row, t = Pᵀz, e = z − Pt, D = P Λ⁻¹ Pᵀ and ξ_j the j-th unit vector:
+ * Source: see each formula. Formulas, with z the scaled row, t = Pᵀz, e = z − Pt, D = P Λ⁻¹ Pᵀ and ξ_j the j-th unit vector:
  * - Q, plain and complete: c_j = e_j² (Σ_j c_j = Q) — Westerhuis, Gurden & Smilde (2000)
  *   Chemometr. Intell. Lab. Syst. 51:95; Alcala & Qin (2011) J. Process Control 21:322, table 1.
  * - T², complete decomposition: c_j = (ξ_jᵀ D^{1/2} z)² = (Σ_a P_ja t_a / √λ_a)² (Σ_j c_j = T²) —
@@ -93,9 +93,13 @@ export function contributions(model: BaselineModel, x: Row, kind: ContributionKi
 /**
  * Order contributions from largest to smallest, with each one's share of the total.
  *
+ * Formula: share_j = c_j / Σ c. Source: common practice (contribution bar charts, Miller, Swanson &
+ * Heckler 1998, Appl. Math. Comput. Sci. 8:775).
+ *
  * @param values feature → contribution (non-negative)
  * @param top keep only the first `top` (default: all)
  * @returns ranked list
+ * @throws nothing
  * @example rankContributions({ a: 1, b: 3 }) // → [{ feature: 'b', value: 3, share: 0.75 }, { feature: 'a', value: 1, share: 0.25 }]
  */
 export function rankContributions(values: Readonly<Record<string, number>>, top?: number): RankedContribution[] {

@@ -53,6 +53,7 @@ export const EMISSION_LINES: readonly EmissionLine[] = [
  * @param wavelengthNm channel centre wavelength in nm
  * @param toleranceNm half-width of the match window in nm (default 1.5)
  * @returns matching lines, nearest first (possibly empty)
+ * @throws RangeError on a non-finite wavelength or a negative tolerance
  * @example identifyLines(777.0) // → [{ species: 'O I', wavelengthNm: 777.4, … }]
  */
 export function identifyLines(wavelengthNm: number, toleranceNm = 1.5): EmissionLine[] {
@@ -66,10 +67,12 @@ export function identifyLines(wavelengthNm: number, toleranceNm = 1.5): Emission
 /**
  * The emission lines an OES feature's name points at, nearest first: reads the wavelength from the
  * name (see parseChannelWavelength in actinometry.ts) and calls {@link identifyLines}.
+ * Source: line table {@link EMISSION_LINES} (NIST ASD; Pearse & Gaydon 1976).
  *
  * @param featureName e.g. "oes_777.2"
  * @param toleranceNm half-width of the match window in nm (default 1.5)
  * @returns matching lines, nearest first; empty when the name carries no wavelength
+ * @throws RangeError on a negative tolerance
  * @example identifyFeature('oes_656.0')[0].species // → 'H I'
  */
 export function identifyFeature(featureName: string, toleranceNm = 1.5): EmissionLine[] {

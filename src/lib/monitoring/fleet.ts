@@ -82,7 +82,7 @@ export interface FleetComparison {
  * @returns per-chamber distance, modified z, flag and separating features
  * @throws MonitoringInputError on fewer than 3 chambers, a chamber without recent wafers, duplicate
  *   chamber ids, or a bad row (naming chamber, feature and row)
- * @example compareChambers(chambers, { featureNames }).chambers.filter((c) => c.flagged)
+ * @example compareChambers(chambers, { featureNames }).chambers.filter((c) => c.flagged) // → e.g. [{ chamberId: 'C07', … }]
  */
 export function compareChambers(chambers: readonly ChamberWafers[], options: FleetOptions): FleetComparison {
 	const window = options.window ?? 25;

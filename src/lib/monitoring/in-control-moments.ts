@@ -19,6 +19,7 @@ export interface RatioMoments {
  *
  * @param model a fitted baseline
  * @returns the moments of both ratios; the T² sd is NaN when n − k ≤ 4 (the variance does not exist)
+ * @throws nothing (degenerate cases give NaN, as stated)
  * @example ratioMoments(model).q.mean // → θ1 / Q limit, typically ≈ 0.3–0.5 at α = 0.01
  */
 export function ratioMoments(model: BaselineModel): RatioMoments {

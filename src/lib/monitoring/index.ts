@@ -28,6 +28,7 @@ export {
 } from './limits';
 export type { BaselineModel, ModelLimits } from './model';
 export { fitBaseline, type FitOptions } from './baseline';
+export { ratioMoments, type RatioMoments } from './in-control-moments';
 export { scoreWafer, scoreBatch, rowFromRecord, type WaferScore, type BatchScores } from './scoring';
 export {
 	contributions,

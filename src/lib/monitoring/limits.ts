@@ -76,7 +76,7 @@ export function residualMoments(residualEigenvalues: ArrayLike<number>): Residua
  * @param alpha false-alarm probability, 0 < α < 1
  * @returns the limit
  * @throws MonitoringInputError when there is no residual eigenvalue; RangeError on a bad α
- * @example qLimitJacksonMudholkar([1, 1, 1, 1], 0.05) // → about 9.3 (χ²₄ at 5 % is 9.49)
+ * @example qLimitJacksonMudholkar([1, 1, 1, 1], 0.05) // → 9.4560… (the exact χ²₄ value is 9.4877)
  */
 export function qLimitJacksonMudholkar(residualEigenvalues: ArrayLike<number>, alpha: number): number {
 	const { theta1, theta2, h0 } = residualMoments(residualEigenvalues);
@@ -107,6 +107,8 @@ export function qLimitBox(residualEigenvalues: ArrayLike<number>, alpha: number)
 
 /**
  * Q limit by the chosen method (Jackson–Mudholkar by default).
+ *
+ * Source: Jackson & Mudholkar (1979); Box (1954) — see the two functions.
  *
  * @param residualEigenvalues eigenvalues not retained in the model
  * @param alpha false-alarm probability, 0 < α < 1

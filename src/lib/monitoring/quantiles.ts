@@ -68,6 +68,7 @@ export function normalUpper(alpha: number): number {
  * Formula: t_{α/2}(ν)² = F_α(1, ν), so t = √F_α(1, ν) — an identity of the distributions (e.g.
  * Johnson, Kotz & Balakrishnan, "Continuous Univariate Distributions" vol. 2, 1995, ch. 27), which
  * spares a separate t package.
+ * Source: via @stdlib/stats-base-dists-f-quantile; tabulated in NIST/SEMATECH e-Handbook §1.3.6.7.2.
  *
  * @param alpha two-sided probability, 0 < α < 1
  * @param nu degrees of freedom (> 0)

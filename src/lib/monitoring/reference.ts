@@ -33,7 +33,19 @@ export function referenceStats(series: ArrayLike<number>, count: number): InCont
 	return { mean, sd };
 }
 
-/** Resolve mean/sd options: explicit values win; otherwise the first `referenceLength` values. */
+/**
+ * In-control mean and sd for a chart: explicit values win; otherwise estimated from the first
+ * `referenceLength` values (default `defaultLength`) with {@link referenceStats}.
+ *
+ * Source: Montgomery (2009) §6.4 (phase I / phase II).
+ *
+ * @param series the values
+ * @param opts explicit mean/sd, or a reference length
+ * @param defaultLength reference length when none is given
+ * @returns mean and sd
+ * @throws RangeError on a non-finite mean, sd ≤ 0, or as {@link referenceStats}
+ * @example resolveInControl([1, 2, 3], { mean: 0, sd: 1 }, 20) // → { mean: 0, sd: 1 }
+ */
 export function resolveInControl(
 	series: ArrayLike<number>,
 	opts: { mean?: number; sd?: number; referenceLength?: number },

@@ -1,4 +1,4 @@
-/** Median of a list (the mean of the two middle values for an even count). */
+/** Median of a list (the mean of the two middle values for an even count); not exported. */
 function median(values: ArrayLike<number>): number {
 	const s = Float64Array.from(values).sort();
 	const m = s.length >> 1;

@@ -44,6 +44,9 @@ export interface Scaling {
 /**
  * Refuse a row with a missing or non-finite value; the engine never imputes.
  *
+ * Formula: none (a check). Source: common practice — PCA monitoring needs complete rows; missing-data
+ * methods exist (e.g. Nelson, Taylor & MacGregor 1996) but Lockstep deliberately does not impute.
+ *
  * @param x the row
  * @param featureNames names of the features, in order
  * @param rowIndex index of the row in its batch, for the message
@@ -135,11 +138,14 @@ export function fitScaling(
 /**
  * Centre and scale one row: z_j = (x_j − mean_j) / s_j.
  *
+ * Source: Jackson (1991) "A User's Guide to Principal Components", §3.3.
+ *
  * @param mean column means
  * @param scale column scales
- * @param x the row (not validated here; callers validate)
+ * @param x the row
  * @param out destination (length p); allocated when omitted
  * @returns the scaled row
+ * @throws nothing (the row is not validated here; callers validate with {@link assertFiniteRow})
  * @example scaleRow(Float64Array.of(1), Float64Array.of(2), [5]) // → Float64Array [2]
  */
 export function scaleRow(mean: Float64Array, scale: Float64Array, x: Row, out?: Float64Array): Float64Array {

@@ -38,6 +38,8 @@ export interface WaferScore {
 /**
  * Build a row in the model's feature order from values keyed by feature name.
  *
+ * Formula: x_j = values[featureNames[j]]. Source: none needed (a lookup); never imputes.
+ *
  * @param model the baseline
  * @param values feature name → value
  * @returns the row

@@ -34,8 +34,11 @@ function toArray(name: string, v: unknown, len: number): Float64Array {
  * Serialize a model to JSON text. Lossless: JavaScript prints each double with the shortest digits
  * that read back to the same value (ECMA-262 Number::toString), so typed arrays become plain arrays.
  *
+ * Source: ECMA-262 Number::toString (shortest round-trip digits); RFC 8259 (JSON).
+ *
  * @param model the baseline
  * @returns JSON text
+ * @throws nothing for a model made by {@link fitBaseline}
  * @example deserializeModel(serializeModel(m)).limits.t2 === m.limits.t2 // → true
  */
 export function serializeModel(model: BaselineModel): string {
@@ -46,6 +49,8 @@ export function serializeModel(model: BaselineModel): string {
 
 /**
  * Read a model from JSON text (or an already parsed object), checking its shape.
+ *
+ * Source: as {@link serializeModel}.
  *
  * @param json text from {@link serializeModel}, or its parsed object
  * @returns the model
@@ -92,8 +97,11 @@ function fnv1a(bytes: Uint8Array, from: number): number {
  * LE); 12–15 FNV-1a hash of bytes 16…end; then L bytes of JSON, zero padding to a multiple of 8, then
  * mean, sd, scale (p each), loadings (p·k), eigenvalues, explainedVariance (r each) as float64 LE.
  *
+ * Source: IEEE 754-2008 binary64; FNV-1a (Fowler, Noll & Vo, IETF draft-eastlake-fnv).
+ *
  * @param model the baseline
  * @returns the blob (a Uint8Array; Node's Buffer is one too)
+ * @throws nothing for a model made by {@link fitBaseline}
  * @example modelFromBlob(modelToBlob(m)).loadings[0] === m.loadings[0] // → true
  */
 export function modelToBlob(model: BaselineModel): Uint8Array {
@@ -120,6 +128,8 @@ export function modelToBlob(model: BaselineModel): Uint8Array {
 
 /**
  * Decode a blob made by {@link modelToBlob}.
+ *
+ * Source: as {@link modelToBlob}.
  *
  * @param blob the bytes (Uint8Array or Buffer)
  * @returns the model
