@@ -97,4 +97,4 @@ export function heLeakSccm(ep: DemoEpisode, tMs: number, windowEndMs: number): n
  * The part swap's lasting change on the swapped chamber: species line multipliers and the DC bias
  * factor (a new focus ring changes radical consumption at the wafer edge and the sheath).
  */
-export const PART_SWAP_OFFSET = { species: { Cl: 0.76, H: 1.2, F: 0.82 }, dcBias: 1.03 } as const;
+export const PART_SWAP_OFFSET = { species: { Cl: 0.72, H: 1.2, F: 0.82 }, dcBias: 1.03 } as const;

@@ -52,9 +52,10 @@ export function buildStepModel(step: StepPhysics, features: DemoFeature[], p: Ch
 	const nm = oes.map((f) => f.wavelengthNm as number);
 	const cloudU = Float64Array.from(nm, (l) => Math.pow(CLOUDING_REF_NM / l, CLOUDING_EXPONENT));
 	const continuum = Float64Array.from(nm, (l) => continuumAt(l, step.continuum, step.cf2Hump));
-	const lines = EMISSION_LINES.map((line) => {
+	// A table line the demo gives no strength (added to the table later) still gets its channel, dark.
+	const emitting = EMISSION_LINES.filter((l) => LINE_STRENGTH[l.wavelengthNm.toFixed(1)] !== undefined);
+	const lines = emitting.map((line) => {
 		const strength = LINE_STRENGTH[line.wavelengthNm.toFixed(1)];
-		if (!strength) throw new Error(`demo: no line strength for ${line.wavelengthNm} nm`);
 		const ch: number[] = [];
 		const w: number[] = [];
 		nm.forEach((l, i) => {

@@ -206,7 +206,7 @@ export const LINE_STRENGTH: Readonly<Record<string, { species: Species; counts: 
 	'337.1': { species: 'N2', counts: 420000 },
 	'357.7': { species: 'N2', counts: 260000 },
 	'380.5': { species: 'N2', counts: 120000 },
-	'388.3': { species: 'CN', counts: 200000 },
+	'388.3': { species: 'CN', counts: 160000 },
 	'483.5': { species: 'CO', counts: 4200 },
 	'486.1': { species: 'H', counts: 9000 },
 	'587.6': { species: 'He', counts: 160000 },
