@@ -1,4 +1,5 @@
 import { createHash } from 'node:crypto';
+import { readFileSync } from 'node:fs';
 import { describe, expect, it } from 'vitest';
 import { buildScenario, generateWaferSteps, type DemoWaferStep } from '../../../seeds/demo/index';
 import { col, demo } from './fixture';
@@ -116,5 +117,17 @@ describe('demo wafer-steps', () => {
 				const m = on.reduce((a, b) => a + b, 0) / on.length;
 				expect(Math.abs(m - st.durationS) / st.durationS).toBeLessThan(0.05);
 			}
+	});
+
+	it('match the counts stated in seeds/demo/README.md', () => {
+		const readme = readFileSync('seeds/demo/README.md', 'utf8').replace(/\s+/g, ' ');
+		const n = (x: number) => x.toLocaleString('en-US');
+		expect(readme).toContain(`${n(rows.length)} wafer-steps`);
+		expect(readme).toContain(`${n(new Set(rows.map((r) => r.waferId)).size)} wafers`);
+		expect(readme).toContain(`${n(new Set(rows.map((r) => r.lotId)).size)} lots`);
+		expect(readme).toContain(`${n(rows.filter((r) => r.golden).length)} golden wafer-steps`);
+		expect(readme).toContain(
+			`${scenario.features['PRS-60'].over_strip.filter((f) => f.kind === 'oes').length} OES channels`
+		);
 	});
 });

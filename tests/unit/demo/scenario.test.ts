@@ -1,3 +1,4 @@
+import { readFileSync } from 'node:fs';
 import { describe, expect, it } from 'vitest';
 import { buildScenario, DEFAULT_END, EPISODE_CHAMBERS } from '../../../seeds/demo/index';
 
@@ -92,5 +93,17 @@ describe('demo scenario', () => {
 		);
 		const he = sc.episodes.find((e) => e.kind === 'he_backside_leak')!;
 		expect(sc.maintenance.some((m) => m.kind === 'pm' && m.at.getTime() === he.end!.getTime())).toBe(true);
+	});
+
+	it('matches the episode table of seeds/demo/README.md (chamber, kind, start, end)', () => {
+		const readme = readFileSync('seeds/demo/README.md', 'utf8');
+		const utc = (d: Date) => `${d.toISOString().slice(0, 10)} ${d.toISOString().slice(11, 16)} UTC`;
+		for (const e of sc.episodes) {
+			const row = readme.split('\n').find((l) => new RegExp(`^\\|\\s*${e.chamberCode}\\s*\\|`).test(l));
+			expect(row, e.chamberCode).toBeDefined();
+			expect(row).toContain(`\`${e.kind}\``);
+			expect(row).toContain(utc(e.start));
+			if (e.end) expect(row).toContain(utc(e.end));
+		}
 	});
 });
