@@ -111,6 +111,10 @@ def reference(name, X, tests, k, scaling, alpha, walpha, qmethod):
             "phiWarning": g * stats.chi2.ppf(1 - walpha, h),
         },
         "phi": {"t2Weight": t2w, "qWeight": qw, "g": g, "h": h},
+        # three-moment shifted chi-square (Imhof 1961, section 4), at alpha
+        "qThreeMoment": th1 + th3 / th2 * (stats.chi2.ppf(1 - alpha, th2**3 / th3**2) - th2**3 / th3**2),
+        "qBox": th2 / th1 * stats.chi2.ppf(1 - alpha, th1**2 / th2),
+        "h0": h0,
         "scored": scored,
     }
 

@@ -19,6 +19,7 @@ export {
 	qLimit,
 	qLimitJacksonMudholkar,
 	qLimitBox,
+	qLimitThreeMoment,
 	residualMoments,
 	phiParameters,
 	phiLimit,
@@ -28,7 +29,7 @@ export {
 } from './limits';
 export type { BaselineModel, ModelLimits } from './model';
 export { fitBaseline, type FitOptions } from './baseline';
-export { ratioMoments, type RatioMoments } from './in-control-moments';
+export { crossValidatedScores, type CrossValidatedScores } from './cross-validation';
 export { scoreWafer, scoreBatch, rowFromRecord, type WaferScore, type BatchScores } from './scoring';
 export {
 	contributions,

@@ -2,7 +2,7 @@ import { MonitoringInputError } from './errors';
 import { chiSquareUpper, fUpper, normalUpper } from './quantiles';
 
 /** Which approximation gives the Q (SPE) limit. */
-export type QLimitMethod = 'jackson-mudholkar' | 'box';
+export type QLimitMethod = 'jackson-mudholkar' | 'box' | 'three-moment';
 
 /** Sums of powers of the residual eigenvalues: θ_i = Σ_{a>k} λ_a^i, i = 1, 2, 3. */
 export interface ResidualMoments {
@@ -57,6 +57,9 @@ export function residualMoments(residualEigenvalues: ArrayLike<number>): Residua
 		theta2 += l * l;
 		theta3 += l * l * l;
 	}
+	for (let a = 0; a < residualEigenvalues.length; a++)
+		if (!(residualEigenvalues[a] >= 0))
+			throw new MonitoringInputError(`residual eigenvalue ${a} is ${residualEigenvalues[a]}: must be ≥ 0`);
 	if (!(theta1 > 0))
 		throw new MonitoringInputError(
 			'no residual variance left after the retained components: choose fewer components so Q has a limit'
@@ -68,8 +71,11 @@ export function residualMoments(residualEigenvalues: ArrayLike<number>): Residua
  * Q (SPE) limit after Jackson & Mudholkar (1979).
  *
  * Formula: Q_α = θ1 [ z_α √(2θ2h0²) / θ1 + 1 + θ2h0(h0 − 1) / θ1² ]^(1/h0), z_α the upper normal
- * quantile. (For the rare h0 < 0 the sign of the z term follows h0, since (Q/θ1)^h0 then decreases
- * in Q; for h0 = 0 or a non-positive bracket the Box (1954) form is returned instead.)
+ * quantile. When h0 ≤ 0 (one residual eigenvalue dominating many small ones) the power transform
+ * behind the formula breaks down — the textbook expression then gives limits far below the true
+ * quantile, and with the sign of the z term corrected it overshoots (false-alarm rates of 0.1–0.8 %
+ * at α = 1 %, simulated in tests/unit/monitoring/limits.test.ts) — so the three-moment form
+ * ({@link qLimitThreeMoment}) is returned instead; the model's `residual.h0` says which applied.
  * Source: Jackson & Mudholkar (1979) Technometrics 21:341, eq. 3.4; Jackson (1991) §2.7.
  *
  * @param residualEigenvalues eigenvalues not retained in the model
@@ -81,9 +87,9 @@ export function residualMoments(residualEigenvalues: ArrayLike<number>): Residua
 export function qLimitJacksonMudholkar(residualEigenvalues: ArrayLike<number>, alpha: number): number {
 	const { theta1, theta2, h0 } = residualMoments(residualEigenvalues);
 	const z = normalUpper(alpha);
-	if (h0 === 0) return qLimitBox(residualEigenvalues, alpha);
-	const bracket = (z * h0 * Math.sqrt(2 * theta2)) / theta1 + 1 + (theta2 * h0 * (h0 - 1)) / (theta1 * theta1);
-	if (!(bracket > 0)) return qLimitBox(residualEigenvalues, alpha);
+	if (!(h0 > 0)) return qLimitThreeMoment(residualEigenvalues, alpha);
+	const bracket = (z * Math.sqrt(2 * theta2 * h0 * h0)) / theta1 + 1 + (theta2 * h0 * (h0 - 1)) / (theta1 * theta1);
+	if (!(bracket > 0)) return qLimitThreeMoment(residualEigenvalues, alpha);
 	return theta1 * Math.pow(bracket, 1 / h0);
 }
 
@@ -106,13 +112,34 @@ export function qLimitBox(residualEigenvalues: ArrayLike<number>, alpha: number)
 }
 
 /**
- * Q limit by the chosen method (Jackson–Mudholkar by default).
+ * Q (SPE) limit from a shifted χ² matching the first three moments of Q = Σ λ_a χ²₁.
  *
- * Source: Jackson & Mudholkar (1979); Box (1954) — see the two functions.
+ * Formula: Q_α = θ1 + (θ3/θ2) · (χ²_α(h′) − h′), h′ = θ2³ / θ3² (mean θ1, variance 2θ2 and third
+ * central moment 8θ3 of Q are matched exactly).
+ * Source: Imhof (1961) "Computing the distribution of quadratic forms in normal variables",
+ * Biometrika 48:419, §4 (Pearson's three-moment approximation); the central case of Liu, Tang & Zhang
+ * (2009) Comput. Stat. Data Anal. 53:853. Accurate where Jackson–Mudholkar is not (h0 ≤ 0).
  *
  * @param residualEigenvalues eigenvalues not retained in the model
  * @param alpha false-alarm probability, 0 < α < 1
- * @param method `jackson-mudholkar` (default) or `box`
+ * @returns the limit
+ * @throws MonitoringInputError when there is no residual eigenvalue; RangeError on a bad α
+ * @example qLimitThreeMoment([1, 1, 1, 1], 0.05) // → 9.4877… (exact for equal eigenvalues)
+ */
+export function qLimitThreeMoment(residualEigenvalues: ArrayLike<number>, alpha: number): number {
+	const { theta1, theta2, theta3 } = residualMoments(residualEigenvalues);
+	const h = (theta2 * theta2 * theta2) / (theta3 * theta3);
+	return theta1 + (theta3 / theta2) * (chiSquareUpper(alpha, h) - h);
+}
+
+/**
+ * Q limit by the chosen method (Jackson–Mudholkar by default).
+ *
+ * Source: Jackson & Mudholkar (1979); Box (1954); Imhof (1961) — see the three functions.
+ *
+ * @param residualEigenvalues eigenvalues not retained in the model
+ * @param alpha false-alarm probability, 0 < α < 1
+ * @param method `jackson-mudholkar` (default), `box` or `three-moment`
  * @returns the limit
  * @throws as {@link qLimitJacksonMudholkar} / {@link qLimitBox}
  * @example qLimit([1, 1, 1, 1], 0.05, 'box') // → 9.4877…
@@ -122,9 +149,10 @@ export function qLimit(
 	alpha: number,
 	method: QLimitMethod = 'jackson-mudholkar'
 ): number {
-	return method === 'box'
-		? qLimitBox(residualEigenvalues, alpha)
-		: qLimitJacksonMudholkar(residualEigenvalues, alpha);
+	if (method === 'box') return qLimitBox(residualEigenvalues, alpha);
+	if (method === 'three-moment') return qLimitThreeMoment(residualEigenvalues, alpha);
+	if (method === 'jackson-mudholkar') return qLimitJacksonMudholkar(residualEigenvalues, alpha);
+	throw new RangeError(`unknown Q limit method "${method}"`);
 }
 
 /** Weights and distribution of the combined index φ. */

@@ -6,6 +6,8 @@ import {
 	fitBaseline,
 	fUpper,
 	normalUpper,
+	qLimitBox,
+	qLimitThreeMoment,
 	scoreWafer,
 	type PcaRoute,
 	type QLimitMethod,
@@ -28,6 +30,9 @@ interface RefSet {
 	theta: [number, number, number];
 	limits: Record<'t2' | 'q' | 't2Warning' | 'qWarning' | 'phi' | 'phiWarning', number>;
 	phi: { t2Weight: number; qWeight: number; g: number; h: number };
+	qThreeMoment: number;
+	qBox: number;
+	h0: number;
 	scored: Array<{
 		x: number[];
 		t2: number;
@@ -88,6 +93,10 @@ describe.each(['gram', 'svd'] as PcaRoute[])('numpy/scipy reference, %s route', 
 				expectRel(model.limits[key], set.limits[key], key);
 			expectRel(model.phi.g, set.phi.g, 'g_φ');
 			expectRel(model.phi.h, set.phi.h, 'h_φ');
+			expectRel(model.residual.h0, set.h0, 'h0');
+			const tail = model.eigenvalues.subarray(model.k);
+			expectRel(qLimitThreeMoment(tail, set.options.alpha), set.qThreeMoment, 'Q three-moment');
+			expectRel(qLimitBox(tail, set.options.alpha), set.qBox, 'Q Box');
 		});
 
 		it('T², Q, φ and all four contribution kinds of the test wafers', () => {
