@@ -1,0 +1,158 @@
+/**
+ * Recipes, recipe steps, their feature catalogs and chambers as the ingest pipeline meets them. All
+ * functions take the file's transaction, so whatever a file creates on first sight is rolled back with
+ * the file when it is refused.
+ */
+import type { Knex } from 'knex';
+import { planActinometry } from '../../monitoring/actinometry.ts';
+import type { FeatureColumn, Header } from './columns.ts';
+import { now } from '../time.ts';
+
+/** Tolerance for matching a file's OES channel to an actinometry line (issue 4: within 0.5 nm). */
+export const ACTINOMETRY_TOLERANCE_NM = 0.5;
+
+export interface DerivedSpec {
+	name: string;
+	/** vector position of the ratio */
+	position: number;
+	/** indices into Header.features */
+	numerator: number;
+	denominator: number;
+}
+
+/** How one recipe step's rows of this file become vectors. */
+export interface StepPlan {
+	recipeStepId: number;
+	featureSetVersion: number;
+	/** Header.features[i] goes to vector position positions[i] */
+	positions: Int32Array;
+	length: number;
+	derived: DerivedSpec[];
+	/** set when the file's feature columns differ from the step's set: every row of the step is refused */
+	refusal: string | null;
+}
+
+export interface Created {
+	recipes: string[];
+	recipeSteps: string[];
+	chambers: string[];
+}
+
+const id = (r: unknown): number => Number(typeof r === 'object' && r !== null ? (r as { id: number }).id : r);
+
+/** The actinometry ratios a set of features supports, as indices into `features`. */
+export function derivedFor(features: readonly Pick<FeatureColumn, 'name' | 'kind'>[]): Array<{ name: string; numerator: number; denominator: number }> {
+	const oes = features.map((f, i) => ({ f, i })).filter((x) => x.f.kind === 'oes');
+	const names = new Set(features.map((f) => f.name));
+	const plan = planActinometry(oes.map((x) => x.f.name), ACTINOMETRY_TOLERANCE_NM);
+	return plan.ratios
+		.filter((r) => !names.has(r.name))
+		.map((r) => ({ name: r.name, numerator: oes[r.numeratorIndex].i, denominator: oes[r.denominatorIndex].i }));
+}
+
+export async function resolveStepPlan(
+	trx: Knex.Transaction,
+	header: Header,
+	recipeCode: string,
+	stepName: string,
+	created: Created
+): Promise<StepPlan> {
+	let recipe = await trx('recipes').where({ code: recipeCode }).first('id');
+	if (!recipe) {
+		const [r] = await trx('recipes').insert({ code: recipeCode, name: recipeCode }).returning('id');
+		recipe = { id: id(r) };
+		created.recipes.push(recipeCode);
+	}
+	const step = await trx('recipe_steps').where({ recipe_id: recipe.id, name: stepName }).first('id', 'feature_set_version');
+	const derived = derivedFor(header.features);
+	if (!step) {
+		const count = Number((await trx('recipe_steps').where({ recipe_id: recipe.id }).count({ n: '*' }).first())?.n ?? 0);
+		const [s] = await trx('recipe_steps')
+			.insert({ recipe_id: recipe.id, name: stepName, position: count, feature_set_version: 1 })
+			.returning('id');
+		const recipeStepId = id(s);
+		const F = header.features.length;
+		const rows = [
+			...header.features.map((f, position) => ({
+				recipe_step_id: recipeStepId,
+				set_version: 1,
+				position,
+				name: f.name,
+				kind: f.kind,
+				wavelength_nm: f.wavelengthNm,
+				unit: f.unit
+			})),
+			...derived.map((d, i) => ({
+				recipe_step_id: recipeStepId,
+				set_version: 1,
+				position: F + i,
+				name: d.name,
+				kind: 'derived',
+				wavelength_nm: null,
+				unit: null
+			}))
+		];
+		for (let i = 0; i < rows.length; i += 500) await trx('features').insert(rows.slice(i, i + 500));
+		created.recipeSteps.push(`${recipeCode} / ${stepName}`);
+		return {
+			recipeStepId,
+			featureSetVersion: 1,
+			positions: Int32Array.from(header.features.map((_, i) => i)),
+			length: F + derived.length,
+			derived: derived.map((d, i) => ({ ...d, position: F + i })),
+			refusal: null
+		};
+	}
+	const catalog: Array<{ position: number; name: string; kind: string }> = await trx('features')
+		.where({ recipe_step_id: step.id, set_version: step.feature_set_version })
+		.orderBy('position')
+		.select('position', 'name', 'kind');
+	const measured = catalog.filter((c) => c.kind !== 'derived');
+	const byName = new Map(measured.map((c) => [c.name, c.position]));
+	const inFile = new Set(header.features.map((f) => f.name));
+	const extra = header.features.filter((f) => !byName.has(f.name)).map((f) => f.name);
+	const missing = measured.filter((c) => !inFile.has(c.name)).map((c) => c.name);
+	const base = {
+		recipeStepId: Number(step.id),
+		featureSetVersion: Number(step.feature_set_version),
+		length: catalog.length
+	};
+	if (extra.length || missing.length) {
+		const list = (xs: string[]) => (xs.length > 8 ? `${xs.slice(0, 8).join(', ')} and ${xs.length - 8} more` : xs.join(', '));
+		const parts = [];
+		if (extra.length) parts.push(`not in the step's set: ${list(extra)}`);
+		if (missing.length) parts.push(`missing from this file: ${list(missing)}`);
+		return {
+			...base,
+			positions: new Int32Array(0),
+			derived: [],
+			refusal: `The feature columns differ from the set fixed for ${recipeCode} / ${stepName} (feature set ${step.feature_set_version}) — ${parts.join('; ')}. An engineer must accept a new feature set first.`
+		};
+	}
+	const derivedPositions = new Map(catalog.filter((c) => c.kind === 'derived').map((c) => [c.name, c.position]));
+	const plannedDerived = derived.filter((d) => derivedPositions.has(d.name));
+	if (plannedDerived.length !== derivedPositions.size)
+		throw new Error(`derived features of ${recipeCode} / ${stepName} cannot be rebuilt from the file's channels`);
+	return {
+		...base,
+		positions: Int32Array.from(header.features.map((f) => byName.get(f.name)!)),
+		derived: plannedDerived.map((d) => ({ ...d, position: derivedPositions.get(d.name)! }))
+		,
+		refusal: null
+	};
+}
+
+// ── Chambers ──────────────────────────────────────────────────────────────────
+
+const UNASSIGNED = { code: 'UNASSIGNED', name: 'Registered by ingest (assign a tool)' };
+
+/** Register a chamber a file brought, under a placeholder area and tool an admin reassigns later. */
+export async function registerChamber(trx: Knex.Transaction, code: string): Promise<number> {
+	let area = await trx('areas').where({ code: UNASSIGNED.code }).first('id');
+	if (!area) area = { id: id((await trx('areas').insert({ code: UNASSIGNED.code, name: UNASSIGNED.name }).returning('id'))[0]) };
+	let tool = await trx('tools').where({ code: UNASSIGNED.code }).first('id');
+	if (!tool)
+		tool = { id: id((await trx('tools').insert({ code: UNASSIGNED.code, name: UNASSIGNED.name, area_id: area.id }).returning('id'))[0]) };
+	const [c] = await trx('chambers').insert({ code, name: code, tool_id: tool.id, created_at: now() }).returning('id');
+	return id(c);
+}

@@ -1,0 +1,63 @@
+/**
+ * JSON input for the API: an array of row objects, or { rows: [...] }, with the same fields as the CSV
+ * columns. The first row's keys are the header; "line" in messages is the row's 1-based position.
+ */
+import { IngestFileError } from './errors.ts';
+import type { FileWriter } from './writer.ts';
+
+function cell(v: unknown): string {
+	if (v === null || v === undefined) return '';
+	if (typeof v === 'string') return v;
+	if (typeof v === 'number') return String(v);
+	return JSON.stringify(v);
+}
+
+/** Where JSON.parse stopped, as line and column of the text (V8 reports a character position). */
+function locateJsonError(text: string, message: string): { line: number | null; column: string | null } {
+	const m = /position (\d+)/.exec(message);
+	if (!m) return { line: null, column: null };
+	const pos = Number(m[1]);
+	const before = text.slice(0, pos);
+	const line = before.split('\n').length;
+	return { line, column: `character ${pos - before.lastIndexOf('\n')}` };
+}
+
+export function parseJsonRows(text: string): Record<string, unknown>[] {
+	let body: unknown;
+	try {
+		body = JSON.parse(text.replace(/^\uFEFF/, ''));
+	} catch (e) {
+		const msg = e instanceof Error ? e.message : String(e);
+		throw new IngestFileError(`The body is not valid JSON: ${msg}`, locateJsonError(text, msg));
+	}
+	const rows = Array.isArray(body) ? body : body && typeof body === 'object' && Array.isArray((body as { rows?: unknown }).rows) ? (body as { rows: unknown[] }).rows : null;
+	if (!rows) throw new IngestFileError('The JSON body must be an array of rows or an object { "rows": [ … ] }.');
+	if (rows.length === 0) throw new IngestFileError('The JSON body has no rows.');
+	rows.forEach((r, i) => {
+		if (!r || typeof r !== 'object' || Array.isArray(r))
+			throw new IngestFileError(`Row ${i + 1} is not an object of column → value.`, { line: i + 1 });
+	});
+	return rows as Record<string, unknown>[];
+}
+
+export async function feedJsonRows(rows: Record<string, unknown>[], writer: FileWriter): Promise<void> {
+	const header = Object.keys(rows[0]);
+	writer.setHeader(header);
+	const known = new Set(header);
+	for (let i = 0; i < rows.length; i++) {
+		const r = rows[i];
+		const keys = Object.keys(r);
+		const extra = keys.filter((k) => !known.has(k));
+		const missing = header.filter((k) => !(k in r));
+		if (extra.length || missing.length) {
+			const parts = [];
+			if (missing.length) parts.push(`lacks ${missing.slice(0, 8).join(', ')}`);
+			if (extra.length) parts.push(`has fields the first row lacks: ${extra.slice(0, 8).join(', ')}`);
+			const p = writer.rejectRow(i + 1, `Row ${i + 1} ${parts.join('; ')} (every row needs the first row's fields).`);
+			if (p) await p;
+			continue;
+		}
+		const p = writer.row(header.map((k) => cell(r[k])), i + 1);
+		if (p) await p;
+	}
+}

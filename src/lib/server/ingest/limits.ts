@@ -1,0 +1,29 @@
+/**
+ * Fixed limits of the ingest pipeline. The file-size limit and the future tolerance are settings
+ * (config.ts); these are not, because no real wafer-summary file comes near them and each one guards
+ * the server rather than the data.
+ */
+
+/** A physical line longer than this refuses the file: 2,048 OES channels × 24 characters is ≈ 50 kB. */
+export const MAX_LINE_BYTES = 1024 * 1024;
+
+/** More columns than this refuses the file (a 2,048-pixel spectrum plus a few hundred sensors fits). */
+export const MAX_COLUMNS = 4096;
+
+/** Rows written per INSERT (and per scoring call). 500 × 14 bindings stays far below SQLite's 32,766. */
+export const BATCH_ROWS = 500;
+
+/** Rejections listed in the report JSON; the table `ingest_rejections` keeps all of them. */
+export const REPORT_REJECTION_CAP = 200;
+
+/** Duplicate wafer-steps listed in the report JSON (all are counted). */
+export const REPORT_DUPLICATE_CAP = 50;
+
+/** Cell errors recorded for one row (a row with a wrong column count gets one). */
+export const MAX_ERRORS_PER_ROW = 20;
+
+/** A JSON body is parsed whole, so it has a smaller cap than a streamed CSV. */
+export const JSON_LIMIT_BYTES = 32 * 1024 * 1024;
+
+/** Identifiers (wafer, lot, chamber, recipe, step): the schema's column widths. */
+export const ID_MAX = { wafer_id: 64, lot_id: 64, chamber_id: 32, recipe: 64, step: 64 } as const;
