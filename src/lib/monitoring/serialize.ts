@@ -19,7 +19,22 @@ function checkHeader(h: Record<string, unknown>): void {
 	for (const f of ['n', 'p', 'k'] as const)
 		if (!Number.isInteger(h[f]) || (h[f] as number) < 1) fail(`${f} must be a positive integer`);
 	if (!Array.isArray(h.featureNames) || h.featureNames.length !== h.p) fail('featureNames must have p entries');
-	if (typeof h.limits !== 'object' || h.limits === null) fail('limits missing');
+	const positive = (obj: unknown, keys: readonly string[], what: string) => {
+		if (typeof obj !== 'object' || obj === null) fail(`${what} missing`);
+		for (const key of keys) {
+			const v = (obj as Record<string, unknown>)[key];
+			if (typeof v !== 'number' || !Number.isFinite(v) || v <= 0) fail(`${what}.${key} must be a positive number`);
+		}
+	};
+	positive(h.limits, ['t2', 'q', 'phi', 't2Warning', 'qWarning', 'phiWarning'], 'limits');
+	positive(h.residual, ['theta1', 'theta2', 'theta3'], 'residual');
+	positive(h.phi, ['t2Weight', 'qWeight', 'g', 'h'], 'phi');
+	positive(h, ['alpha', 'warningAlpha'], 'model');
+	if (!['autoscale', 'pareto', 'none'].includes(h.scaling as string)) fail(`unknown scaling ${JSON.stringify(h.scaling)}`);
+	if (!['jackson-mudholkar', 'box', 'three-moment'].includes(h.qMethod as string))
+		fail(`unknown Q method ${JSON.stringify(h.qMethod)}`);
+	if (!['gram', 'svd'].includes(h.route as string)) fail(`unknown route ${JSON.stringify(h.route)}`);
+	if (!Array.isArray(h.lowVarianceFeatures)) fail('lowVarianceFeatures must be an array');
 }
 
 function toArray(name: string, v: unknown, len: number): Float64Array {

@@ -121,3 +121,18 @@ describe('model serialization', () => {
 		expect(() => deserializeModel(o)).toThrow(/loadings has 239 values, expected 240/);
 	});
 });
+
+describe('model text with wrong fields is refused with the field named', () => {
+	const text = serializeModel(model);
+	it.each([
+		['limits', (o: Record<string, any>) => (o.limits.q = -1), /limits\.q must be a positive number/],
+		['scaling', (o: Record<string, any>) => (o.scaling = 'zscore'), /unknown scaling/],
+		['qMethod', (o: Record<string, any>) => (o.qMethod = 'magic'), /unknown Q method/],
+		['alpha', (o: Record<string, any>) => delete o.alpha, /model\.alpha/],
+		['featureNames', (o: Record<string, any>) => o.featureNames.pop(), /featureNames must have p entries/]
+	])('%s', (_f, mutate, message) => {
+		const o = JSON.parse(text);
+		mutate(o);
+		expect(() => deserializeModel(o)).toThrow(message);
+	});
+});
