@@ -1,0 +1,15 @@
+/**
+ * The scheduled jobs. Each runs on its cron expression, never overlapping itself; add new jobs (mail
+ * digests, retention) here.
+ */
+import { config } from '../src/lib/server/config.ts';
+import { runInbox } from './ingest-inbox.ts';
+
+export interface Job {
+	name: string;
+	/** node-cron expression (5 or 6 fields) */
+	schedule: string;
+	run(): Promise<unknown>;
+}
+
+export const JOBS: Job[] = [{ name: 'ingest-inbox', schedule: config.ingestCron, run: () => runInbox() }];
