@@ -135,6 +135,18 @@ describe('limit formulas', () => {
 		expect(brokenStickComponents([5, 3, 0.5, 0.3, 0.2], 50)).toBe(2);
 		expect(brokenStickComponents([1, 1, 1, 1, 1], 50)).toBe(1);
 	});
+	it('scaling "none" keeps raw units and Pareto divides by √sd (van den Berg et al. 2006)', () => {
+		const data = latent(6, 40, 6, 2, 0.3);
+		const raw = fitBaseline(data, { featureNames: names(6), scaling: 'none', components: 2 });
+		const par = fitBaseline(data, { featureNames: names(6), scaling: 'pareto', components: 2 });
+		expect(Array.from(raw.scale)).toEqual(new Array(6).fill(1));
+		par.scale.forEach((s, j) => expect(s).toBeCloseTo(Math.sqrt(par.sd[j]), 14));
+		// with no scaling the eigenvalues sum to the total raw variance
+		const total = Array.from(raw.sd).reduce((a, s) => a + s * s, 0);
+		expect(raw.eigenvalues.reduce((a, b) => a + b, 0) / total).toBeCloseTo(1, 12);
+		expect(raw.componentsRule).toBe('fixed');
+		expect(fitBaseline(data, { featureNames: names(6) }).componentsRule).toBe('broken-stick');
+	});
 	it('a model records everything needed to recompute its limits', () => {
 		const m: BaselineModel = fitBaseline(latent(5, 40, 8, 2, 0.3), { featureNames: names(8) });
 		expect(m.limits.t2).toBe(t2Limit(m.k, m.n, m.alpha));
