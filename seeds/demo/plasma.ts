@@ -84,18 +84,16 @@ export function simulateStep(
 ): Float64Array {
 	const st = m.step;
 	const out = new Float64Array(m.features.length);
-	const actual = {} as Record<Gas, number>;
-	let total = 0;
-	for (const g of GASES) {
-		const sp = st.flows[g] ?? 0;
-		actual[g] = sp * p.mfcBias[g] * (1 + 0.003 * rng.normal()) * (g === 'o2' ? w.o2Factor : 1);
-		total += actual[g];
-	}
-	const setTotal = GASES.reduce((s, g) => s + (st.flows[g] ?? 0), 0);
-	actual.o2 += 0.21 * w.airLeakSccm;
+	// Flow through each MFC (its calibration offset and, if drifting, the drift), then what reaches
+	// the plasma: the MFC flows plus any air or helium leaking in.
+	const mfc = {} as Record<Gas, number>;
+	const drift = (g: Gas) => (g === 'o2' ? w.o2Factor : 1);
+	for (const g of GASES) mfc[g] = (st.flows[g] ?? 0) * p.mfcBias[g] * drift(g) * (1 + 0.003 * rng.normal());
+	const actual = { ...mfc, o2: mfc.o2 + 0.21 * w.airLeakSccm };
 	const n2 = 0.78 * w.airLeakSccm;
 	const he = st.esc ? HE_BASE_SCCM + w.heLeakSccm : 0;
-	total += 0.21 * w.airLeakSccm + n2 + he;
+	const setTotal = GASES.reduce((s, g) => s + (st.flows[g] ?? 0), 0);
+	const total = GASES.reduce((s, g) => s + actual[g], 0) + n2 + he;
 	const x = (v: number) => v / total;
 
 	const pressure = st.pressureMtorr * (1 + 0.0015 * rng.normal());
@@ -149,17 +147,10 @@ export function simulateStep(
 		'throttle_pos_pct',
 		(((st.throttlePct + p.throttleOffsetPct) * (total / setTotal)) / pRel) * (1 + 0.004 * rng.normal())
 	);
-	// Each MFC reads its actual flow through its own calibration (so a drifting one still reads setpoint).
-	for (const g of GASES) {
-		const sp = st.flows[g];
-		if (sp !== undefined)
-			put(
-				`${g}_flow_sccm`,
-				((actual[g] - (g === 'o2' ? 0.21 * w.airLeakSccm : 0)) /
-					(p.mfcBias[g] * (g === 'o2' ? w.o2Factor : 1))) *
-					(1 + 0.0005 * rng.normal())
-			);
-	}
+	// Each MFC reads its own flow through its own calibration, so a drifting one still reads setpoint.
+	for (const g of GASES)
+		if (st.flows[g] !== undefined)
+			put(`${g}_flow_sccm`, (mfc[g] / (p.mfcBias[g] * drift(g))) * (1 + 0.0005 * rng.normal()));
 	put('chuck_temp_c', st.chuckC + p.chuckOffsetC + 0.0015 * (forward - st.powerW) + 0.08 * rng.normal());
 	put('backside_he_sccm', p.backsideHeSccm * (1 + 0.04 * rng.normal()) + w.heLeakSccm);
 	return out;
