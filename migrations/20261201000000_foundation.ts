@@ -226,6 +226,8 @@ export async function up(knex: Knex): Promise<void> {
 		t.bigInteger('scored_at').notNullable();
 		// A wafer rescored against a newer baseline keeps its old score (history) with current = false.
 		t.boolean('current').notNullable().defaultTo(true);
+		// Within the seasoning window after a wet clean: scored and shown, but the wafer rules hold their alarms.
+		t.boolean('seasoning').notNullable().defaultTo(false);
 		t.unique(['wafer_step_id', 'baseline_id']);
 		t.index(['chamber_id', 'recipe_step_id', 'processed_at']);
 		t.index(['processed_at']);

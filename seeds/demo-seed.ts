@@ -1,20 +1,62 @@
 /**
- * The demo fab's seed: demo accounts now; the fab itself is added as the generator lands.
+ * The demo fab's seed: the invented scenario of seeds/demo replayed day by day, as it would have
+ * happened — wafer summaries arrive and are scored on arrival, technicians log wet cleans, engineers
+ * pick golden wafers, build and approve baselines (and rebuild them after each wet clean), fleet
+ * models are built and matched, and the older alarms get acknowledged with cause codes. Nothing is
+ * invented after the fact: every score, rollup and alarm comes from the same code paths as production.
+ *
+ * The demo ends at the current hour (or LOCKSTEP_DEMO_END), so its last day is "this morning".
  */
 import type { Knex } from 'knex';
+import { buildScenario, type DemoScenario } from './demo/index.ts';
 import { createUser } from '../src/lib/server/users.ts';
+import { replayDemo, type ReplayReport } from './demo-replay.ts';
 
 export const DEMO_PASSWORD = 'lockstep-demo';
-export const DEMO_ACCOUNTS = [
-	{ username: 'demo-admin', displayName: 'Demo Admin', role: 'admin' as const },
-	{ username: 'demo-engineer', displayName: 'Demo Engineer', role: 'engineer' as const },
-	{ username: 'demo-viewer', displayName: 'Demo Viewer', role: 'viewer' as const }
-];
 
-export async function seedDemo(k: Knex, opts: { log: (s: string) => void }): Promise<string> {
-	const existing = Number((await k('users').count({ n: '*' }).first())?.n ?? 0);
-	if (existing > 0) return 'Database already has users; demo seed skipped.';
-	for (const a of DEMO_ACCOUNTS) await createUser({ ...a, password: DEMO_PASSWORD }, k);
-	opts.log(`Demo accounts (password "${DEMO_PASSWORD}"): ${DEMO_ACCOUNTS.map((a) => `${a.username} (${a.role})`).join(', ')}`);
-	return 'Demo seed done.';
+export function demoEnd(env: NodeJS.ProcessEnv = process.env): Date {
+	if (env.LOCKSTEP_DEMO_END) {
+		const d = new Date(env.LOCKSTEP_DEMO_END);
+		if (Number.isNaN(d.getTime())) throw new Error(`LOCKSTEP_DEMO_END is not a date: "${env.LOCKSTEP_DEMO_END}"`);
+		return d;
+	}
+	const hour = 3_600_000;
+	return new Date(Math.floor(Date.now() / hour) * hour);
+}
+
+const idOf = (r: unknown) => (typeof r === 'object' && r !== null ? (r as { id: number }).id : (r as number));
+
+async function createStructure(k: Knex, s: DemoScenario) {
+	const t = s.start.getTime();
+	await k.transaction(async (trx) => {
+		const areaIds = new Map<string, number>();
+		for (const a of s.areas) areaIds.set(a.code, idOf((await trx('areas').insert(a).returning('id'))[0]));
+		const toolIds = new Map<string, number>();
+		for (const tl of s.tools)
+			toolIds.set(
+				tl.code,
+				idOf((await trx('tools').insert({ code: tl.code, name: tl.name, model: tl.model, area_id: areaIds.get(tl.areaCode) }).returning('id'))[0])
+			);
+		for (const c of s.chambers) await trx('chambers').insert({ code: c.code, name: c.name, tool_id: toolIds.get(c.toolCode), created_at: t });
+	});
+}
+
+export async function seedDemo(k: Knex, opts: { log: (s: string) => void; end?: Date }): Promise<string> {
+	const existing = Number((await k('areas').count({ n: '*' }).first())?.n ?? 0);
+	const users = Number((await k('users').count({ n: '*' }).first())?.n ?? 0);
+	if (existing > 0 || users > 0) return 'The database has data already; the demo seed left it as it is.';
+	const t0 = performance.now();
+	const scenario = buildScenario({ end: opts.end ?? demoEnd() });
+	for (const p of scenario.people) await createUser({ ...p, password: DEMO_PASSWORD, timeZone: scenario.fab.timeZone }, k);
+	await createStructure(k, scenario);
+	const report: ReplayReport = await replayDemo(k, scenario, opts.log);
+	const secs = ((performance.now() - t0) / 1000).toFixed(1);
+	const lines = [
+		`Demo fab "${scenario.fab.name}" loaded in ${secs} s: ${report.waferSteps.toLocaleString('en')} wafer-steps, ` +
+			`${report.baselines} baselines approved, ${report.fleetModels} fleet models, ${report.alarms} alarms (${report.acknowledged} acknowledged), ` +
+			`${report.maintenance} maintenance events, ${scenario.start.toISOString().slice(0, 16)}Z → ${scenario.end.toISOString().slice(0, 16)}Z.`,
+		`Demo accounts (password "${DEMO_PASSWORD}"): ${scenario.people.map((p) => `${p.username} (${p.role})`).join(', ')}`
+	];
+	for (const l of lines) opts.log(l);
+	return lines.join('\n');
 }

@@ -12,7 +12,7 @@ async function main() {
 	const k = db();
 	await migrateLatest(k);
 	const report = await seedDemo(k, { log: values.quiet ? () => {} : (s: string) => console.log(s) });
-	if (!values.quiet) console.log(report);
+	if (values.quiet) console.log(report.split('\n')[0]);
 }
 
 main()

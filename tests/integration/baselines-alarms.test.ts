@@ -121,8 +121,8 @@ describe('baseline lifecycle, scoring and alarms', () => {
 		const ws = await insertWaferSteps(env.k, { chamberId: ch(), recipeStepId: fab.recipeStepId, rows: latentRows(40, 12, 5), start: T0 + 4 * DAY, prefix: 'post' });
 		const cands = await goldenCandidates({ chamberId: ch(), recipeStepId: fab.recipeStepId, from: T0 + 4 * DAY, to: T0 + 5 * DAY });
 		expect(cands).toHaveLength(40);
-		expect(cands.slice(0, 25).every((c) => c.excluded?.startsWith('seasoning'))).toBe(true);
-		expect(cands.slice(25).every((c) => c.excluded === null)).toBe(true);
+		expect(cands.slice(0, 30).every((c) => c.excluded?.startsWith('seasoning'))).toBe(true);
+		expect(cands.slice(30).every((c) => c.excluded === null)).toBe(true);
 		const ids = [...cands.filter((c) => !c.excluded).map((c) => c.id), ...(await env.k('wafer_steps').where({ chamber_id: ch(), golden: true }).pluck('id'))];
 		await putSetting('baseline_policy', { fourEyes: true }, null);
 		const d = await createDraftBaseline({ chamberId: ch(), recipeStepId: fab.recipeStepId, waferStepIds: ids, components: 3, builtBy: engineer });

@@ -13,7 +13,7 @@
  */
 import type { Knex } from 'knex';
 import { ewma } from '../monitoring/index.ts';
-import type { RatioMoments } from '../monitoring/in-control-moments.ts';
+import type { EwmaReference } from './baselines.ts';
 import type { AlarmPolicy } from './settings.ts';
 import { now } from './time.ts';
 
@@ -45,8 +45,8 @@ export interface BaselineLimits {
 	id: number;
 	t2WarningLimit: number;
 	qWarningLimit: number;
-	/** In-control moments of T²/limit and Q/limit (see monitoring/in-control-moments.ts), for the EWMA. */
-	ewmaReference: RatioMoments | null;
+	/** In-control level of T²/limit and Q/limit (cross-validated golden wafers), for the EWMA. */
+	ewmaReference: EwmaReference | null;
 }
 
 export interface Violation {

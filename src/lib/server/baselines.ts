@@ -11,7 +11,8 @@ import {
 	type BaselineModel,
 	type ScalingMethod
 } from '../monitoring/index.ts';
-import { ratioMoments, type RatioMoments } from '../monitoring/in-control-moments.ts';
+import { mean, sampleStandardDeviation } from 'simple-statistics';
+import { crossValidatedScores } from '../monitoring/cross-validation.ts';
 import { db } from './db.ts';
 import { getSetting } from './settings.ts';
 import { now } from './time.ts';
@@ -109,8 +110,24 @@ export interface BaselineSummary {
 	golden: { id: number; waferId: string; t2: number; q: number }[];
 	qMethod: string;
 	route: string;
-	/** In-control mean and sd of T²/limit and Q/limit for new wafers: the EWMA charts' reference. */
-	ewmaReference: RatioMoments;
+	/** In-control mean and sd of T²/limit and Q/limit of new wafers (cross-validated golden): the EWMA charts' reference. */
+	ewmaReference: EwmaReference | null;
+}
+
+export interface EwmaReference {
+	t2: { mean: number; sd: number };
+	q: { mean: number; sd: number };
+	folds: number;
+}
+
+function ewmaReference(rows: Float64Array[], model: BaselineModel): EwmaReference | null {
+	try {
+		const cv = crossValidatedScores(rows, model, 5);
+		const m = (a: Float64Array) => ({ mean: mean(Array.from(a)), sd: sampleStandardDeviation(Array.from(a)) });
+		return { t2: m(cv.t2Ratio), q: m(cv.qRatio), folds: cv.folds };
+	} catch {
+		return null; // too few golden wafers to cross-validate: the EWMA rule stays off for this baseline
+	}
 }
 
 /** Fit and store a draft baseline from chosen wafer-steps. Nothing is stored when the fit fails. */
@@ -158,7 +175,7 @@ export async function createDraftBaseline(req: DraftRequest, k: Knex = db()): Pr
 		golden: wafers.map((w, i) => ({ id: w.id, waferId: w.waferId, t2: self.t2[i], q: self.q[i] })),
 		qMethod: model.qMethod,
 		route: model.route,
-		ewmaReference: ratioMoments(model)
+		ewmaReference: ewmaReference(wafers.map((w) => w.values), model)
 	};
 	const t = now();
 	return k.transaction(async (trx) => {

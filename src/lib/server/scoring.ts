@@ -76,6 +76,7 @@ async function scoreGroup(
 	raiseAlarms: boolean
 ): Promise<number[]> {
 	const model = await getModel(b.id, trx);
+	const seasoning = await seasoningWafers(trx, rows);
 	const s = scoreBatch(model, rows.map((r) => r.values));
 	const { chamberId, recipeStepId } = rows[0];
 	const t = now();
@@ -98,12 +99,14 @@ async function scoreGroup(
 		q_ratio: p.qRatio,
 		phi_ratio: s.phi[i] / model.limits.phi,
 		worst_ratio: p.worstRatio,
+		seasoning: seasoning.has(p.waferStepId),
 		scored_at: t
 	}));
 	// History under this baseline, before these wafers, for the run and EWMA rules.
+	const historyQuery = trx('scores').where({ baseline_id: b.id, chamber_id: chamberId, recipe_step_id: recipeStepId });
+	if (policy.holdDuringSeasoning) historyQuery.andWhere('seasoning', false);
 	const history = (
-		await trx('scores')
-			.where({ baseline_id: b.id, chamber_id: chamberId, recipe_step_id: recipeStepId })
+		await historyQuery
 			.andWhere('processed_at', '<', points[0].processedAt)
 			.orderBy('processed_at', 'desc')
 			.limit(HISTORY)
@@ -127,7 +130,7 @@ async function scoreGroup(
 		await trx('wafer_steps').whereIn('id', chunk).update({ scoring_state: 'scored' });
 	}
 	for (let i = 0; i < scoreRows.length; i += 200)
-		await trx('scores').insert(scoreRows.slice(i, i + 200)).onConflict(['wafer_step_id', 'baseline_id']).merge(['current', 't2', 'q', 't2_ratio', 'q_ratio', 'phi_ratio', 'worst_ratio', 'scored_at']);
+		await trx('scores').insert(scoreRows.slice(i, i + 200)).onConflict(['wafer_step_id', 'baseline_id']).merge(['current', 't2', 'q', 't2_ratio', 'q_ratio', 'phi_ratio', 'worst_ratio', 'seasoning', 'scored_at']);
 	if (rescoring) await rebuildRollups(trx, chamberId, recipeStepId, points);
 	else await updateRollups(trx, chamberId, recipeStepId, points);
 	if (!raiseAlarms) return [];
@@ -140,7 +143,8 @@ async function scoreGroup(
 		ewmaReference: summary.ewmaReference ?? null
 	};
 	const opened: number[] = [];
-	for (const v of evaluateRules(history, points, limits, policy)) {
+	const judged = policy.holdDuringSeasoning ? points.filter((p) => !seasoning.has(p.waferStepId)) : points;
+	for (const v of evaluateRules(history, judged, limits, policy)) {
 		const r = await raiseOrExtend(trx, {
 			chamberId,
 			recipeStepId,
@@ -204,6 +208,33 @@ async function updateRollups(trx: Knex.Transaction | Knex, chamberId: number, re
 	});
 	for (let i = 0; i < upserts.length; i += 100)
 		await trx('hourly_rollups').insert(upserts.slice(i, i + 100)).onConflict(['chamber_id', 'recipe_step_id', 'hour_at']).merge();
+}
+
+/**
+ * The wafer-steps among `rows` that fall within the seasoning window — the first `seasoningWafers`
+ * wafer-steps of the chamber × recipe step after a wet clean (baseline policy).
+ */
+async function seasoningWafers(trx: Knex.Transaction | Knex, rows: NewWaferStep[]): Promise<Set<number>> {
+	const out = new Set<number>();
+	const { chamberId, recipeStepId } = rows[0];
+	const n = (await getSetting('baseline_policy', trx)).seasoningWafers;
+	if (n === 0) return out;
+	const first = rows[0].processedAt;
+	const last = rows[rows.length - 1].processedAt;
+	const before = await trx('maintenance_events').where({ chamber_id: chamberId, kind: 'wet_clean' }).andWhere('at', '<=', first).max({ at: 'at' }).first();
+	const within = await trx('maintenance_events').where({ chamber_id: chamberId, kind: 'wet_clean' }).andWhere('at', '>', first).andWhere('at', '<=', last).pluck('at');
+	const cleans = [...(before?.at != null ? [Number(before.at)] : []), ...within.map(Number)];
+	const mine = new Set(rows.map((r) => r.id));
+	for (const at of cleans) {
+		const ids = await trx('wafer_steps')
+			.where({ chamber_id: chamberId, recipe_step_id: recipeStepId })
+			.andWhere('processed_at', '>', at)
+			.orderBy([{ column: 'processed_at' }, { column: 'id' }])
+			.limit(n)
+			.pluck('id');
+		for (const id of ids) if (mine.has(id)) out.add(id);
+	}
+	return out;
 }
 
 async function hasScores(trx: Knex.Transaction | Knex, ids: number[]): Promise<boolean> {

@@ -21,6 +21,8 @@ export const AlarmPolicy = z.object({
 	ewmaL: z.number().gt(0).max(6).default(3),
 	/** Chamber flagged by fleet matching (|modified z| > 3.5). */
 	fleetEnabled: z.boolean().default(true),
+	/** Wafers in the seasoning window after a wet clean (baseline policy's seasoningWafers) open no wafer alarms. */
+	holdDuringSeasoning: z.boolean().default(true),
 	fleetWindow: z.number().int().min(5).max(500).default(25)
 });
 export type AlarmPolicy = z.infer<typeof AlarmPolicy>;
@@ -29,7 +31,7 @@ export const BaselinePolicy = z.object({
 	/** An approver other than the builder is required. */
 	fourEyes: z.boolean().default(false),
 	/** Wafers after a wet clean excluded from golden sets by default (seasoning). */
-	seasoningWafers: z.number().int().min(0).max(500).default(25),
+	seasoningWafers: z.number().int().min(0).max(500).default(30), // common practice: tens of wafers
 	/** A wet clean or part swap puts the chamber into requalify. */
 	requalifyOn: z.array(z.enum(['wet_clean', 'part_swap', 'pm'])).default(['wet_clean', 'part_swap']),
 	alpha: z.number().gt(0).lt(0.5).default(0.01),
