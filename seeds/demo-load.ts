@@ -1,76 +1,63 @@
 /**
- * How one day of demo wafer-steps enters Lockstep. Until the ingest pipeline's entry point is wired
- * here, the rows are written with the same catalog and scoring calls the pipeline makes.
+ * How one day of demo wafer-steps enters Lockstep: as the tool hosts would deliver it — one
+ * wafer-summary CSV per recipe step — through the ingest pipeline (validation, catalog, storage,
+ * scoring on arrival, rollups, alarms). Golden status is not part of the file format: it is set
+ * afterwards, as an engineer qualifying wafers would.
  */
+import fs from 'node:fs';
+import os from 'node:os';
+import path from 'node:path';
 import type { Knex } from 'knex';
-import type { DemoScenario, DemoWaferStep } from './demo/index.ts';
-import { encodeValues } from '../src/lib/server/feature-values.ts';
-import { scoreWaferSteps } from '../src/lib/server/scoring.ts';
+import { writeWaferSummaryCsvFile, type DemoScenario, type DemoWaferStep } from './demo/index.ts';
+import { ingestFile } from '../src/lib/server/ingest/index.ts';
+import { setGolden } from '../src/lib/server/wafer-steps.ts';
 
-export type Catalog = Map<string, { recipeStepId: number; rfOnIndex: number }>;
-
-const idOf = (r: unknown) => (typeof r === 'object' && r !== null ? (r as { id: number }).id : (r as number));
-
-async function ensureCatalog(trx: Knex.Transaction, s: DemoScenario, recipe: string, step: string, catalog: Catalog) {
-	const key = `${recipe}/${step}`;
-	const hit = catalog.get(key);
-	if (hit) return hit;
-	let r = await trx('recipes').where({ code: recipe }).first('id');
-	if (!r) {
-		const def = s.recipes.find((x) => x.code === recipe)!;
-		r = { id: idOf((await trx('recipes').insert({ code: recipe, name: def.name, chemistry: def.chemistry }).returning('id'))[0]) };
-	}
-	let st = await trx('recipe_steps').where({ recipe_id: r.id, name: step }).first('id');
-	const features = s.features[recipe][step];
-	if (!st) {
-		const pos = s.recipes.find((x) => x.code === recipe)!.steps.findIndex((x) => x.name === step);
-		st = { id: idOf((await trx('recipe_steps').insert({ recipe_id: r.id, name: step, position: pos, feature_set_version: 1 }).returning('id'))[0]) };
-		await trx('features').insert(
-			features.map((f, i) => ({ recipe_step_id: st!.id, set_version: 1, position: i, name: f.name, kind: f.kind, wavelength_nm: f.wavelengthNm, unit: f.unit }))
-		);
-	}
-	const entry = { recipeStepId: st.id as number, rfOnIndex: features.findIndex((f) => f.name === 'rf_on_s') };
-	catalog.set(key, entry);
-	return entry;
+export interface DayLoad {
+	waferSteps: number;
+	rejected: number;
+	files: number;
 }
 
-export async function loadDemoDay(k: Knex, s: DemoScenario, rows: DemoWaferStep[], chamberIds: Map<string, number>, catalog: Catalog): Promise<number> {
-	if (rows.length === 0) return 0;
-	const t = Date.now();
-	await k.transaction(async (trx) => {
-		const fresh = [];
-		for (let i = 0; i < rows.length; i += 200) {
-			const chunk = rows.slice(i, i + 200);
-			const records = [];
-			for (const r of chunk) {
-				const c = await ensureCatalog(trx, s, r.recipe, r.step, catalog);
-				records.push({
-					wafer_id: r.waferId,
-					lot_id: r.lotId,
-					slot: r.slot,
-					chamber_id: chamberIds.get(r.chamberCode)!,
-					recipe_step_id: c.recipeStepId,
-					processed_at: r.processedAt.getTime(),
-					golden: r.golden,
-					feature_set_version: 1,
-					feature_values: encodeValues(r.values),
-					rf_on_s: c.rfOnIndex >= 0 ? r.values[c.rfOnIndex] : null,
-					created_at: t
-				});
-			}
-			const ids = await trx('wafer_steps').insert(records).returning('id');
-			ids.forEach((id, j) =>
-				fresh.push({
-					id: idOf(id),
-					chamberId: records[j].chamber_id,
-					recipeStepId: records[j].recipe_step_id,
-					processedAt: records[j].processed_at,
-					featureSetVersion: 1,
-					values: chunk[j].values
-				})
-			);
+let spool: string | null = null;
+function spoolDir(): string {
+	spool ??= fs.mkdtempSync(path.join(os.tmpdir(), 'lockstep-demo-'));
+	return spool;
+}
+
+export function removeSpool(): void {
+	if (spool) fs.rmSync(spool, { recursive: true, force: true });
+	spool = null;
+}
+
+export async function loadDemoDay(k: Knex, s: DemoScenario, rows: DemoWaferStep[], dayLabel: string, submittedBy: string | null): Promise<DayLoad> {
+	const out: DayLoad = { waferSteps: 0, rejected: 0, files: 0 };
+	if (rows.length === 0) return out;
+	const groups = new Map<string, DemoWaferStep[]>();
+	for (const r of rows) {
+		const key = `${r.recipe}\u0000${r.step}`;
+		const g = groups.get(key);
+		if (g) g.push(r);
+		else groups.set(key, [r]);
+	}
+	for (const [key, g] of groups) {
+		const [recipe, step] = key.split('\u0000');
+		const name = `${dayLabel}_${recipe}_${step}.csv`;
+		const file = path.join(spoolDir(), name);
+		await writeWaferSummaryCsvFile(g, s, recipe, step, file);
+		const report = await ingestFile(file, { source: 'seed', originalName: name, submittedBy, k });
+		fs.rmSync(file, { force: true });
+		if (report.status !== 'done') throw new Error(`demo file ${name} was not accepted: ${JSON.stringify(report).slice(0, 500)}`);
+		out.waferSteps += report.rows.accepted;
+		out.rejected += report.rows.rejected;
+		out.files++;
+		const golden = g.filter((r) => r.golden).map((r) => r.waferId);
+		if (golden.length) {
+			const ids: number[] = [];
+			const stepRow = await k('recipe_steps as rs').join('recipes as r', 'r.id', 'rs.recipe_id').where({ 'r.code': recipe, 'rs.name': step }).first('rs.id');
+			for (let i = 0; i < golden.length; i += 500)
+				ids.push(...(await k('wafer_steps').where({ recipe_step_id: stepRow.id }).whereIn('wafer_id', golden.slice(i, i + 500)).pluck('id')));
+			await setGolden(ids, true, k);
 		}
-		await scoreWaferSteps(trx, fresh);
-	});
-	return rows.length;
+	}
+	return out;
 }

@@ -10,11 +10,12 @@ import { approveBaseline, createDraftBaseline } from '../src/lib/server/baseline
 import { buildFleetModel, runFleetMatching } from '../src/lib/server/fleet-matching.ts';
 import { logMaintenance } from '../src/lib/server/maintenance.ts';
 import { rescoreSince } from '../src/lib/server/scoring.ts';
-import { loadDemoDay, type Catalog } from './demo-load.ts';
+import { loadDemoDay, removeSpool } from './demo-load.ts';
 import { setClock } from '../src/lib/server/time.ts';
 
 export interface ReplayReport {
 	waferSteps: number;
+	files: number;
 	baselines: number;
 	fleetModels: number;
 	alarms: number;
@@ -31,13 +32,12 @@ const REQUALIFY_GOLDEN = 12;
 const BASELINE_GOLDEN_MAX = 80;
 
 export async function replayDemo(k: Knex, s: DemoScenario, log: (s: string) => void): Promise<ReplayReport> {
-	const report: ReplayReport = { waferSteps: 0, baselines: 0, fleetModels: 0, alarms: 0, acknowledged: 0, maintenance: 0 };
+	const report: ReplayReport = { waferSteps: 0, files: 0, baselines: 0, fleetModels: 0, alarms: 0, acknowledged: 0, maintenance: 0 };
 	const users = new Map<string, string>((await k('users').select('id', 'username')).map((u) => [u.username, u.id]));
 	const engineers = s.people.filter((p) => p.role === 'engineer').map((p) => users.get(p.username)!);
 	const builder = engineers[0];
 	const approver = engineers[1] ?? engineers[0];
 	const chamberIds = new Map<string, number>((await k('chambers').select('id', 'code')).map((c) => [c.code, c.id]));
-	const catalog: Catalog = new Map();
 	const maintenance = [...s.maintenance].sort((a, b) => a.at.getTime() - b.at.getTime());
 	let mIdx = 0;
 	// Maintenance before the window (each chamber's last wet clean) is logged first.
@@ -58,7 +58,9 @@ export async function replayDemo(k: Knex, s: DemoScenario, log: (s: string) => v
 
 	async function endOfDay(until: number) {
 		setClock(until); // what happens now happens at the demo's time
-		report.waferSteps += await loadDemoDay(k, s, day, chamberIds, catalog);
+		const loaded = await loadDemoDay(k, s, day, new Date(until - DAY).toISOString().slice(0, 10), null);
+		report.waferSteps += loaded.waferSteps;
+		report.files += loaded.files;
 		day = [];
 		while (mIdx < maintenance.length && maintenance[mIdx].at.getTime() <= until) await logMaintenanceEvent(maintenance[mIdx++]);
 		await engineersAtWork(until);
@@ -117,6 +119,7 @@ export async function replayDemo(k: Knex, s: DemoScenario, log: (s: string) => v
 	await endOfDay(s.end.getTime());
 	while (mIdx < maintenance.length) await logMaintenanceEvent(maintenance[mIdx++]);
 	setClock(null);
+	removeSpool();
 	report.alarms = Number((await k('alarms').count({ n: '*' }).first())?.n ?? 0);
 	return report;
 }

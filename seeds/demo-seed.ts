@@ -52,7 +52,7 @@ export async function seedDemo(k: Knex, opts: { log: (s: string) => void; end?: 
 	const report: ReplayReport = await replayDemo(k, scenario, opts.log);
 	const secs = ((performance.now() - t0) / 1000).toFixed(1);
 	const lines = [
-		`Demo fab "${scenario.fab.name}" loaded in ${secs} s: ${report.waferSteps.toLocaleString('en')} wafer-steps, ` +
+		`Demo fab "${scenario.fab.name}" loaded in ${secs} s: ${report.waferSteps.toLocaleString('en')} wafer-steps from ${report.files} files, ` +
 			`${report.baselines} baselines approved, ${report.fleetModels} fleet models, ${report.alarms} alarms (${report.acknowledged} acknowledged), ` +
 			`${report.maintenance} maintenance events, ${scenario.start.toISOString().slice(0, 16)}Z → ${scenario.end.toISOString().slice(0, 16)}Z.`,
 		`Demo accounts (password "${DEMO_PASSWORD}"): ${scenario.people.map((p) => `${p.username} (${p.role})`).join(', ')}`
