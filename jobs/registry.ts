@@ -4,6 +4,7 @@
  */
 import { config } from '../src/lib/server/config.ts';
 import { runInbox } from './ingest-inbox.ts';
+import { runFleetJob } from './fleet-matching.ts';
 
 export interface Job {
 	name: string;
@@ -12,4 +13,7 @@ export interface Job {
 	run(): Promise<unknown>;
 }
 
-export const JOBS: Job[] = [{ name: 'ingest-inbox', schedule: config.ingestCron, run: () => runInbox() }];
+export const JOBS: Job[] = [
+	{ name: 'ingest-inbox', schedule: config.ingestCron, run: () => runInbox() },
+	{ name: 'fleet-matching', schedule: process.env.LOCKSTEP_FLEET_CRON ?? '7 * * * *', run: () => runFleetJob() }
+];
