@@ -4,6 +4,7 @@ import { luciaFor } from '$lib/server/auth';
 import { decide } from '$lib/server/route-policy';
 import { securityHeaders } from '$lib/server/security-headers';
 import { closeDb } from '$lib/server/db';
+import { bearerToken, verifyApiToken } from '$lib/server/api-tokens';
 import { THEME_COOKIE, themeFromCookie, withHtmlTheme } from '$lib/components/ui/theme';
 
 // Knex's pool keeps the event loop alive: close it when adapter-node shuts down.
@@ -44,12 +45,32 @@ const session: Handle = async ({ event, resolve }) => {
 	return resolve(event);
 };
 
+/**
+ * Resolve `Authorization: Bearer <token>` on API routes to `locals.apiToken`. A request carrying a
+ * token acts as that token only (any session cookie sent along is ignored); an unknown or revoked
+ * token is refused here, before the route policy.
+ */
+const bearer: Handle = async ({ event, resolve }) => {
+	const raw = bearerToken(event.request.headers.get('authorization'));
+	if (raw === null || !event.route.id?.startsWith('/api/')) return resolve(event);
+	const token = raw ? await verifyApiToken(raw) : null;
+	if (!token)
+		return new Response(JSON.stringify({ error: 'The API token is unknown or revoked.' }), {
+			status: 401,
+			headers: { 'content-type': 'application/json', 'www-authenticate': 'Bearer' }
+		});
+	event.locals.apiToken = token;
+	event.locals.user = null;
+	event.locals.session = null;
+	return resolve(event);
+};
+
 /** Enforce ROUTE_POLICY on every request that matched a route. */
 const authorize: Handle = async ({ event, resolve }) => {
 	const routeId = event.route.id;
 	if (routeId === null) return resolve(event); // no such route: SvelteKit answers 404
 	const isApi = routeId.startsWith('/api/');
-	const d = decide(routeId, event.request.method, event.url, event.locals.user?.role ?? null, !isApi);
+	const d = decide(routeId, event.request.method, event.url, event.locals.user?.role ?? null, !isApi, event.locals.apiToken);
 	if (d.allow) return resolve(event);
 	if (isApi) {
 		return new Response(JSON.stringify({ error: d.reason }), {
@@ -75,4 +96,4 @@ const headers: Handle = async ({ event, resolve }) => {
 	return response;
 };
 
-export const handle = sequence(headers, session, authorize);
+export const handle = sequence(headers, session, bearer, authorize);

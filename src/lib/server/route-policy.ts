@@ -21,7 +21,23 @@ export interface RoutePolicy {
 }
 
 export const ROUTE_POLICY: Record<string, RoutePolicy> = {
+	// Alarm queue, baselines, maintenance, fleet matching, admin policy and cause codes.
+	'/alarms': { GET: 'viewer', actions: { acknowledge: 'engineer', close: 'engineer' } },
+	'/alarms/[id]': { GET: 'viewer', actions: { acknowledge: 'engineer', close: 'engineer' } },
+	'/baselines': { GET: 'viewer' },
+	'/baselines/[chamber]/[step]': { GET: 'viewer', actions: { draft: 'engineer', approve: 'engineer', discard: 'engineer', rescore: 'engineer' } },
+	'/maintenance': { GET: 'viewer', actions: { log: 'engineer' } },
+	'/admin/policy': { GET: 'admin', actions: { alarm: 'admin', baseline: 'admin', ingest: 'admin' } },
+	'/admin/cause-codes': { GET: 'admin', actions: { add: 'admin', rename: 'admin', retire: 'admin', restore: 'admin' } },
+	'/api/tasks/[id]': { GET: 'viewer' },
 	'/': { GET: 'viewer' },
+	// Fleet heatmap, chamber and wafer-step screens and their JSON APIs.
+	'/api/heatmap': { GET: 'viewer', token: 'read' },
+	'/chambers/[code]': { GET: 'viewer' },
+	'/api/chambers/[code]/series': { GET: 'viewer', token: 'read' },
+	'/api/chambers/[code]/wafers': { GET: 'viewer', token: 'read' },
+	'/wafers/[id]': { GET: 'viewer' },
+	'/api/wafers/[id]': { GET: 'viewer', token: 'read' },
 	'/sign-in': { GET: 'public', actions: { default: 'public' } },
 	'/sign-out': { GET: 'public', actions: { default: 'viewer' } },
 	'/account': { GET: 'viewer', actions: { password: 'viewer' } },
@@ -31,7 +47,11 @@ export const ROUTE_POLICY: Record<string, RoutePolicy> = {
 	},
 	'/api/health': { GET: 'public' },
 	'/api/me': { GET: 'viewer' },
-	'/api/fleet': { GET: 'viewer', token: 'read' }
+	'/api/fleet': { GET: 'viewer', token: 'read' },
+	'/uploads': { GET: 'engineer' },
+	'/admin/tokens': { GET: 'admin', actions: { create: 'admin', revoke: 'admin' } },
+	'/api/ingest': { POST: 'engineer', token: 'ingest' },
+	'/api/uploads': { GET: 'engineer' }
 };
 
 /** The form action named by a POST to a page: `?/name`, or `default`. */
@@ -46,9 +66,17 @@ export type Decision = { allow: true } | { allow: false; status: 401 | 403 | 405
 
 /**
  * Decide a request. `routeId` is SvelteKit's route id, `role` the signed-in user's (or null),
- * `isPage` whether the route is a page (so POST means a form action).
+ * `isPage` whether the route is a page (so POST means a form action), `token` the API token that
+ * authenticated the request instead of a session (hooks.server.ts), if any.
  */
-export function decide(routeId: string, method: string, url: URL, role: Role | null, isPage: boolean): Decision {
+export function decide(
+	routeId: string,
+	method: string,
+	url: URL,
+	role: Role | null,
+	isPage: boolean,
+	token: { scope: 'ingest' | 'read' } | null = null
+): Decision {
 	const policy = ROUTE_POLICY[routeId];
 	if (!policy) return { allow: false, status: 403, reason: `route ${routeId} has no access policy` };
 	let access: Access | undefined;
@@ -57,6 +85,15 @@ export function decide(routeId: string, method: string, url: URL, role: Role | n
 	else access = policy[method as 'GET' | 'POST' | 'PUT' | 'PATCH' | 'DELETE'];
 	if (access === undefined) return { allow: false, status: 405, reason: `${method} is not allowed here` };
 	if (access === 'public') return { allow: true };
+	// A token may use only the routes that name its scope; a read token only reads. An ingest token
+	// therefore can post wafer summaries but never read or acknowledge anything.
+	if (token) {
+		if (policy.token !== token.scope)
+			return { allow: false, status: 403, reason: `An API token of scope "${token.scope}" cannot use this route.` };
+		if (token.scope === 'read' && method !== 'GET' && method !== 'HEAD')
+			return { allow: false, status: 403, reason: 'A read token can only read.' };
+		return { allow: true };
+	}
 	if (!role) return { allow: false, status: 401, reason: 'Sign in first.' };
 	const order = ['viewer', 'engineer', 'admin'];
 	if (order.indexOf(role) < order.indexOf(access))

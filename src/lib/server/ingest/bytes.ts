@@ -36,7 +36,8 @@ export class ByteInspector {
 		if (this.size > this.opts.limitBytes)
 			throw new IngestFileError(
 				`${this.opts.name} is larger than the limit of ${formatBytes(this.opts.limitBytes)}; split it into smaller files.`,
-				{ value: `more than ${this.opts.limitBytes} bytes` }
+				{ value: `more than ${this.opts.limitBytes} bytes` },
+				'size'
 			);
 		this.hash.update(chunk);
 		if (this.first && chunk.length > 0) {

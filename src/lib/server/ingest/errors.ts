@@ -12,9 +12,12 @@ export interface Location {
  */
 export class IngestFileError extends Error {
 	readonly location: Location;
-	constructor(reason: string, location: Partial<Location> = {}) {
+	/** `size` for an over-size file (HTTP 413); everything else is `input` */
+	readonly kind: 'size' | 'input';
+	constructor(reason: string, location: Partial<Location> = {}, kind: 'size' | 'input' = 'input') {
 		super(reason);
 		this.name = 'IngestFileError';
+		this.kind = kind;
 		this.location = { line: location.line ?? null, column: location.column ?? null, value: location.value ?? null };
 	}
 }

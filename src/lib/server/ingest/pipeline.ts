@@ -67,7 +67,7 @@ class DuplicateFile extends Error {
 	}
 }
 
-interface Base {
+export interface Base {
 	fileName: string;
 	source: IngestSource;
 	sha256: string;
@@ -115,7 +115,7 @@ export async function inspectFile(filePath: string, opts: { limitBytes: number; 
 	if (size > opts.limitBytes)
 		throw new IngestFileError(`${opts.name} is ${formatBytes(size)}, larger than the limit of ${formatBytes(opts.limitBytes)}; split it into smaller files.`, {
 			value: `${size} bytes`
-		});
+		}, 'size');
 	const inspector = new ByteInspector(opts);
 	let done = 0;
 	for await (const chunk of fs.createReadStream(filePath, { highWaterMark: 1 << 20 }) as AsyncIterable<Buffer>) {
@@ -150,7 +150,7 @@ export async function ingestFile(filePath: string, opts: IngestOptions): Promise
 				onBytes: (n) => progress({ phase: 'checking', bytesDone: n, bytesTotal: total, rows: 0 })
 			}));
 		if (opts.inspected && info.sizeBytes > limitBytes)
-			throw new IngestFileError(`${fileName} is ${formatBytes(info.sizeBytes)}, larger than the limit of ${formatBytes(limitBytes)}.`);
+			throw new IngestFileError(`${fileName} is ${formatBytes(info.sizeBytes)}, larger than the limit of ${formatBytes(limitBytes)}.`, {}, 'size');
 	} catch (e) {
 		if (e instanceof IngestFileError) return recordRefused(k, base, opts, e);
 		throw e;
@@ -249,8 +249,8 @@ function fileRow(base: Base, opts: IngestOptions, status: 'rejected' | 'failed',
 }
 
 /** A refused file is recorded (status rejected) with its one located error; nothing else from it. */
-async function recordRefused(k: Knex, base: Base, opts: IngestOptions, e: IngestFileError): Promise<IngestReport> {
-	const fileError: Rejection = { line: e.location.line ?? 0, column: e.location.column, value: e.location.value, reason: e.message };
+export async function recordRefused(k: Knex = db(), base: Base, opts: IngestOptions, e: IngestFileError): Promise<IngestReport> {
+	const fileError: Rejection = { line: e.location.line ?? 0, column: e.location.column, value: e.location.value, reason: e.message, kind: e.kind };
 	const report = makeReport(base, 'rejected', emptyStats(), { fileError });
 	return k.transaction(async (trx) => {
 		const [row] = await trx('ingest_files').insert(fileRow(base, opts, 'rejected', report)).returning('id');

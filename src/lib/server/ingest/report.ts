@@ -14,6 +14,8 @@ export type IngestStatus = 'done' | 'duplicate' | 'rejected' | 'failed';
 export interface Rejection extends Location {
 	line: number;
 	reason: string;
+	/** for a whole-file error: `size` when the file was over the limit */
+	kind?: 'size' | 'input';
 }
 
 export interface DuplicateRow {
