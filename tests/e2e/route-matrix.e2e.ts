@@ -20,24 +20,7 @@ interface Entry {
 }
 
 export const EXPECTED: Record<string, Entry> = {
-	// Alarm queue, baselines, maintenance, fleet matching, admin policy and cause codes (demo-seed samples).
-	'/alarms': { GET: 'viewer', actions: { acknowledge: 'engineer', close: 'engineer' } },
-	'/alarms/[id]': { path: '/alarms/1', GET: 'viewer', actions: { acknowledge: 'engineer', close: 'engineer' } },
-	'/baselines': { GET: 'viewer' },
-	'/baselines/[chamber]/[step]': { path: '/baselines/DE01-A/1', GET: 'viewer', actions: { draft: 'engineer', approve: 'engineer', discard: 'engineer', rescore: 'engineer' } },
-	'/maintenance': { GET: 'viewer', actions: { log: 'engineer' } },
-	'/admin/policy': { GET: 'admin', actions: { alarm: 'admin', baseline: 'admin', ingest: 'admin' } },
-	'/admin/cause-codes': { GET: 'admin', actions: { add: 'admin', rename: 'admin', retire: 'admin', restore: 'admin' } },
-	// An unknown task id answers 404, so GET is probed by role in queue-tasks.e2e.ts with a real task.
-	'/api/tasks/[id]': { path: '/api/tasks/none' },
 	'/': { GET: 'viewer' },
-	// Fleet heatmap, chamber and wafer-step screens and their JSON APIs (demo-seed samples).
-	'/api/heatmap': { GET: 'viewer' },
-	'/chambers/[code]': { path: '/chambers/DE01-A', GET: 'viewer' },
-	'/api/chambers/[code]/series': { path: '/api/chambers/DE01-A/series', GET: 'viewer' },
-	'/api/chambers/[code]/wafers': { path: '/api/chambers/DE01-A/wafers', GET: 'viewer' },
-	'/wafers/[id]': { path: '/wafers/1', GET: 'viewer' },
-	'/api/wafers/[id]': { path: '/api/wafers/1', GET: 'viewer' },
 	'/sign-in': { GET: 'public', actions: { default: 'public' } },
 	'/sign-out': { GET: 'public', actions: { default: 'viewer' } },
 	'/account': { GET: 'viewer', actions: { password: 'viewer' } },

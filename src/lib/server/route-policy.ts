@@ -21,23 +21,7 @@ export interface RoutePolicy {
 }
 
 export const ROUTE_POLICY: Record<string, RoutePolicy> = {
-	// Alarm queue, baselines, maintenance, fleet matching, admin policy and cause codes.
-	'/alarms': { GET: 'viewer', actions: { acknowledge: 'engineer', close: 'engineer' } },
-	'/alarms/[id]': { GET: 'viewer', actions: { acknowledge: 'engineer', close: 'engineer' } },
-	'/baselines': { GET: 'viewer' },
-	'/baselines/[chamber]/[step]': { GET: 'viewer', actions: { draft: 'engineer', approve: 'engineer', discard: 'engineer', rescore: 'engineer' } },
-	'/maintenance': { GET: 'viewer', actions: { log: 'engineer' } },
-	'/admin/policy': { GET: 'admin', actions: { alarm: 'admin', baseline: 'admin', ingest: 'admin' } },
-	'/admin/cause-codes': { GET: 'admin', actions: { add: 'admin', rename: 'admin', retire: 'admin', restore: 'admin' } },
-	'/api/tasks/[id]': { GET: 'viewer' },
 	'/': { GET: 'viewer' },
-	// Fleet heatmap, chamber and wafer-step screens and their JSON APIs.
-	'/api/heatmap': { GET: 'viewer', token: 'read' },
-	'/chambers/[code]': { GET: 'viewer' },
-	'/api/chambers/[code]/series': { GET: 'viewer', token: 'read' },
-	'/api/chambers/[code]/wafers': { GET: 'viewer', token: 'read' },
-	'/wafers/[id]': { GET: 'viewer' },
-	'/api/wafers/[id]': { GET: 'viewer', token: 'read' },
 	'/sign-in': { GET: 'public', actions: { default: 'public' } },
 	'/sign-out': { GET: 'public', actions: { default: 'viewer' } },
 	'/account': { GET: 'viewer', actions: { password: 'viewer' } },
