@@ -10,8 +10,11 @@ export const MAX_LINE_BYTES = 1024 * 1024;
 /** More columns than this refuses the file (a 2,048-pixel spectrum plus a few hundred sensors fits). */
 export const MAX_COLUMNS = 4096;
 
-/** Rows written per INSERT (and per scoring call). 500 × 14 bindings stays far below SQLite's 32,766. */
-export const BATCH_ROWS = 500;
+/** Rows queued before they are written and scored together (scoring has a cost per chamber × step group). */
+export const BATCH_ROWS = 2000;
+
+/** Rows per INSERT: Knex writes a multi-row insert on SQLite as a compound SELECT, limited to 500 terms. */
+export const INSERT_ROWS = 500;
 
 /** Rejections listed in the report JSON; the table `ingest_rejections` keeps all of them. */
 export const REPORT_REJECTION_CAP = 200;

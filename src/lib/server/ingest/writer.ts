@@ -9,7 +9,7 @@ import { scoreWaferSteps, type NewWaferStep } from '../scoring.ts';
 import { analyseHeader, type Header } from './columns.ts';
 import { resolveStepPlan, registerChamber, type Created, type StepPlan } from './catalog.ts';
 import { clip } from './errors.ts';
-import { BATCH_ROWS, ID_MAX, MAX_ERRORS_PER_ROW, REPORT_DUPLICATE_CAP, REPORT_REJECTION_CAP } from './limits.ts';
+import { BATCH_ROWS, ID_MAX, INSERT_ROWS, MAX_ERRORS_PER_ROW, REPORT_DUPLICATE_CAP, REPORT_REJECTION_CAP } from './limits.ts';
 import type { DuplicateRow, Rejection } from './report.ts';
 import { parseId, parseInstant, parseNumberCell, parseRfOn, parseSlot } from './values.ts';
 import { encodeValues } from '../feature-values.ts';
@@ -245,7 +245,7 @@ export class FileWriter {
 	}
 
 	private maybeFlushRejections(): Promise<void> | undefined {
-		return this.rejectionRows.length >= BATCH_ROWS ? this.flushRejections() : undefined;
+		return this.rejectionRows.length >= INSERT_ROWS ? this.flushRejections() : undefined;
 	}
 
 	private async flushRejections(): Promise<void> {
@@ -260,26 +260,30 @@ export class FileWriter {
 		this.batch = [];
 		if (batch.length === 0) return;
 		const createdAt = Date.now();
-		const inserted: Array<{ id: number; wafer_id: string; recipe_step_id: number }> = await this.trx('wafer_steps')
-			.insert(
-				batch.map((p) => ({
-					wafer_id: p.waferId,
-					lot_id: p.lotId,
-					chamber_id: p.chamberId,
-					recipe_step_id: p.plan.recipeStepId,
-					processed_at: p.processedAt,
-					slot: p.slot,
-					feature_set_version: p.plan.featureSetVersion,
-					feature_values: encodeValues(p.values),
-					rf_on_s: p.rfOn,
-					scoring_state: 'pending',
-					ingest_file_id: this.opts.fileId,
-					created_at: createdAt
-				}))
-			)
-			.onConflict(['wafer_id', 'recipe_step_id'])
-			.ignore()
-			.returning(['id', 'wafer_id', 'recipe_step_id']);
+		const inserted: Array<{ id: number; wafer_id: string; recipe_step_id: number }> = [];
+		for (let i = 0; i < batch.length; i += INSERT_ROWS) {
+			const part = await this.trx('wafer_steps')
+				.insert(
+					batch.slice(i, i + INSERT_ROWS).map((p) => ({
+						wafer_id: p.waferId,
+						lot_id: p.lotId,
+						chamber_id: p.chamberId,
+						recipe_step_id: p.plan.recipeStepId,
+						processed_at: p.processedAt,
+						slot: p.slot,
+						feature_set_version: p.plan.featureSetVersion,
+						feature_values: encodeValues(p.values),
+						rf_on_s: p.rfOn,
+						scoring_state: 'pending',
+						ingest_file_id: this.opts.fileId,
+						created_at: createdAt
+					}))
+				)
+				.onConflict(['wafer_id', 'recipe_step_id'])
+				.ignore()
+				.returning(['id', 'wafer_id', 'recipe_step_id']);
+			inserted.push(...part);
+		}
 		const idOf = new Map(inserted.map((r) => [`${r.wafer_id}\u0000${r.recipe_step_id}`, Number(r.id)]));
 		const fresh: NewWaferStep[] = [];
 		const dups: Pending[] = [];
