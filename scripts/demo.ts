@@ -9,7 +9,9 @@ import fs from 'node:fs';
 const host = process.env.HOST ?? '127.0.0.1';
 const port = process.env.PORT ?? '3000';
 const origin = process.env.ORIGIN ?? `http://${host}:${port}`;
-const env = { ...process.env, HOST: host, PORT: port, ORIGIN: origin };
+// Uploads are limited by Lockstep itself (LOCKSTEP_UPLOAD_LIMIT_MB), streamed to disk: adapter-node's
+// own 512 kB body limit would refuse them first.
+const env = { ...process.env, HOST: host, PORT: port, ORIGIN: origin, BODY_SIZE_LIMIT: process.env.BODY_SIZE_LIMIT ?? 'Infinity' };
 
 function step(title: string, cmd: string, args: string[]) {
 	console.log(`\n▸ ${title}`);
