@@ -140,3 +140,26 @@ describe('baseline lifecycle, scoring and alarms', () => {
 		expect(rollupCount).toBe(current.length);
 	});
 });
+
+describe('several violations in one batch', () => {
+	it('open one alarm per rule and extend it by the rest, as one-by-one arrival would', async () => {
+		const ch = fab.chamberIds[1];
+		const g = await insertWaferSteps(env.k, { chamberId: ch, recipeStepId: fab.recipeStepId, rows: latentRows(60, 12, 11), start: T0, prefix: 'c2g', golden: true });
+		const d = await createDraftBaseline({ chamberId: ch, recipeStepId: fab.recipeStepId, waferStepIds: g.map((w) => w.id), components: 3, builtBy: engineer });
+		await approveBaseline(d.id, reviewer);
+		const shifts = [3, 6, 4];
+		const rows = shifts.map((by, i) => latentRows(1, 12, 20 + i, { feature: 7, by })[0]);
+		const ws = await insertWaferSteps(env.k, { chamberId: ch, recipeStepId: fab.recipeStepId, rows, start: T0 + 5 * DAY, prefix: 'c2s' });
+		const r = await env.k.transaction((trx) => scoreWaferSteps(trx, asNew(ws, ch)));
+		const single = await env.k('alarms').where({ chamber_id: ch, rule: 'single' });
+		expect(single).toHaveLength(1);
+		expect(r.alarmsOpened).toContain(single[0].id);
+		expect(single[0].wafer_count).toBe(3);
+		expect(single[0].first_wafer_step_id).toBe(ws[0].id);
+		expect(single[0].last_wafer_step_id).toBe(ws[2].id);
+		const scores = await env.k('scores').whereIn('wafer_step_id', ws.map((w) => w.id)).orderBy('wafer_step_id');
+		const worst = scores.reduce((a, b) => (b.worst_ratio > a.worst_ratio ? b : a));
+		expect(single[0].worst_wafer_step_id).toBe(worst.wafer_step_id);
+		expect(single[0].worst_ratio).toBeCloseTo(worst.worst_ratio, 12);
+	});
+});

@@ -146,6 +146,44 @@ export async function raiseOrExtend(
 	return { id, opened: true };
 }
 
+/**
+ * The violations of one rule on one chamber × step, in time order, applied in two statements: the
+ * first opens the alarm (or extends the live one), the rest extend it in one update. Same result as
+ * calling {@link raiseOrExtend} for each, without a read and a write per wafer.
+ */
+export async function raiseOrExtendAll(
+	trx: Knex.Transaction | Knex,
+	base: { chamberId: number; recipeStepId: number; baselineId: number | null; rule: AlarmRule },
+	violations: Violation[]
+): Promise<{ id: number; opened: boolean } | null> {
+	if (violations.length === 0) return null;
+	const [first, ...rest] = violations;
+	const r = await raiseOrExtend(trx, {
+		...base,
+		waferStepId: first.point.waferStepId,
+		at: first.point.processedAt,
+		ratio: first.point.worstRatio,
+		detail: first.detail
+	});
+	if (rest.length === 0) return r;
+	const cur = await trx('alarms').where({ id: r.id }).first('worst_ratio', 'wafer_count', 'last_seen_at');
+	const last = rest[rest.length - 1].point;
+	let worst: Violation | null = null;
+	for (const v of rest) if (v.point.worstRatio > Number(cur.worst_ratio ?? -Infinity) && (!worst || v.point.worstRatio > worst.point.worstRatio)) worst = v;
+	const patch: Record<string, unknown> = {
+		last_seen_at: Math.max(Number(cur.last_seen_at), last.processedAt),
+		last_wafer_step_id: last.waferStepId,
+		wafer_count: Number(cur.wafer_count) + rest.length
+	};
+	if (worst) {
+		patch.worst_ratio = worst.point.worstRatio;
+		patch.worst_wafer_step_id = worst.point.waferStepId;
+		patch.detail_json = JSON.stringify(worst.detail);
+	}
+	await trx('alarms').where({ id: r.id }).update(patch);
+	return r;
+}
+
 export const DISPOSITIONS = {
 	continue: 'Continue production',
 	hold_recommended: 'Hold recommended',

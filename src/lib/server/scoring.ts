@@ -8,7 +8,7 @@
  */
 import type { Knex } from 'knex';
 import { scoreBatch } from '../monitoring/index.ts';
-import { raiseOrExtend, evaluateRules, type ScoredPoint, type BaselineLimits } from './alarms.ts';
+import { raiseOrExtendAll, evaluateRules, type AlarmRule, type ScoredPoint, type BaselineLimits } from './alarms.ts';
 import { getModel } from './baselines.ts';
 import { decodeValues } from './feature-values.ts';
 import { getSetting } from './settings.ts';
@@ -144,18 +144,15 @@ async function scoreGroup(
 	};
 	const opened: number[] = [];
 	const judged = policy.holdDuringSeasoning ? points.filter((p) => !seasoning.has(p.waferStepId)) : points;
+	const byRule = new Map<AlarmRule, ReturnType<typeof evaluateRules>>();
 	for (const v of evaluateRules(history, judged, limits, policy)) {
-		const r = await raiseOrExtend(trx, {
-			chamberId,
-			recipeStepId,
-			baselineId: b.id,
-			rule: v.rule,
-			waferStepId: v.point.waferStepId,
-			at: v.point.processedAt,
-			ratio: v.point.worstRatio,
-			detail: v.detail
-		});
-		if (r.opened) opened.push(r.id);
+		const list = byRule.get(v.rule);
+		if (list) list.push(v);
+		else byRule.set(v.rule, [v]);
+	}
+	for (const [rule, violations] of byRule) {
+		const r = await raiseOrExtendAll(trx, { chamberId, recipeStepId, baselineId: b.id, rule }, violations);
+		if (r?.opened) opened.push(r.id);
 	}
 	return opened;
 }
