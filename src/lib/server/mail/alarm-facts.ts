@@ -1,0 +1,60 @@
+/**
+ * What a mail says about one alarm beyond its row: the features that drove it, and whether the
+ * signature is leak-like (then the mail carries the safety reminder).
+ *
+ * - A fleet alarm: the features that set the chamber apart from the fleet (stored with the alarm).
+ * - A wafer alarm: the top reconstruction-based contributions (Alcala & Qin 2009, Automatica 45:1593)
+ *   of its worst wafer to the statistic that is further over its limit (T² or Q).
+ * - Leak-like: the leading features are N₂ (air) or He (backside helium) lines, and for a wafer alarm Q
+ *   leads — a leak adds species the golden wafers never had, which shows in Q (DOMAIN notes; the same
+ *   rule as the alarm screens).
+ */
+import type { Knex } from 'knex';
+import { contributions, identifyFeature, rankContributions } from '../../monitoring/index.ts';
+import { getModel } from '../baselines.ts';
+import { decodeValues } from '../feature-values.ts';
+
+export interface AlarmFacts {
+	/** which statistic the features explain */
+	basis: 'T²' | 'Q' | 'fleet' | null;
+	top: { feature: string; share: number | null }[];
+	leakGases: string[];
+}
+
+const LEAK_ELEMENTS = new Set(['N2', 'CN', 'He']);
+
+export function leakGasesOf(features: string[]): string[] {
+	const gases = new Set<string>();
+	for (const f of features) for (const l of identifyFeature(f)) if (LEAK_ELEMENTS.has(l.element)) gases.add(l.element === 'CN' ? 'N2' : l.element);
+	return [...gases].sort();
+}
+
+export const GAS_NAMES: Record<string, string> = { N2: 'nitrogen (air)', He: 'helium' };
+
+export async function alarmFacts(
+	a: { rule: string; baselineId: number | null; worstWaferStepId: number | null; detail: Record<string, unknown> },
+	k: Knex,
+	top = 5
+): Promise<AlarmFacts> {
+	if (a.rule === 'fleet') {
+		const sep = Array.isArray(a.detail.separating) ? (a.detail.separating as unknown[]).map(String) : [];
+		return { basis: 'fleet', top: sep.slice(0, top).map((feature) => ({ feature, share: null })), leakGases: leakGasesOf(sep.slice(0, top)) };
+	}
+	const none: AlarmFacts = { basis: null, top: [], leakGases: [] };
+	if (a.worstWaferStepId === null || a.baselineId === null) return none;
+	const score = await k('scores').where({ wafer_step_id: a.worstWaferStepId, baseline_id: a.baselineId }).first('t2_ratio', 'q_ratio');
+	const w = await k('wafer_steps').where({ id: a.worstWaferStepId }).first('feature_values');
+	if (!score || !w) return none;
+	try {
+		const model = await getModel(a.baselineId, k);
+		const values = decodeValues(w.feature_values);
+		if (values.length !== model.p) return none;
+		const qLeads = Number(score.q_ratio) >= Number(score.t2_ratio);
+		const c = contributions(model, values, 'rbc');
+		const ranked = rankContributions(qLeads ? c.q : (c.t2 ?? c.q), top);
+		const features = ranked.map((r) => r.feature);
+		return { basis: qLeads ? 'Q' : 'T²', top: ranked.map((r) => ({ feature: r.feature, share: r.share })), leakGases: qLeads ? leakGasesOf(features) : [] };
+	} catch {
+		return none; // an unreadable model: the mail goes without the features rather than not at all
+	}
+}
