@@ -21,6 +21,13 @@ interface Entry {
 
 export const EXPECTED: Record<string, Entry> = {
 	'/': { GET: 'viewer' },
+	// Fleet heatmap, chamber and wafer-step screens and their JSON APIs (demo-seed samples).
+	'/api/heatmap': { GET: 'viewer' },
+	'/chambers/[code]': { path: '/chambers/DE01-A', GET: 'viewer' },
+	'/api/chambers/[code]/series': { path: '/api/chambers/DE01-A/series', GET: 'viewer' },
+	'/api/chambers/[code]/wafers': { path: '/api/chambers/DE01-A/wafers', GET: 'viewer' },
+	'/wafers/[id]': { path: '/wafers/1', GET: 'viewer' },
+	'/api/wafers/[id]': { path: '/api/wafers/1', GET: 'viewer' },
 	'/sign-in': { GET: 'public', actions: { default: 'public' } },
 	'/sign-out': { GET: 'public', actions: { default: 'viewer' } },
 	'/account': { GET: 'viewer', actions: { password: 'viewer' } },

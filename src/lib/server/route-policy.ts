@@ -22,6 +22,13 @@ export interface RoutePolicy {
 
 export const ROUTE_POLICY: Record<string, RoutePolicy> = {
 	'/': { GET: 'viewer' },
+	// Fleet heatmap, chamber and wafer-step screens and their JSON APIs.
+	'/api/heatmap': { GET: 'viewer', token: 'read' },
+	'/chambers/[code]': { GET: 'viewer' },
+	'/api/chambers/[code]/series': { GET: 'viewer', token: 'read' },
+	'/api/chambers/[code]/wafers': { GET: 'viewer', token: 'read' },
+	'/wafers/[id]': { GET: 'viewer' },
+	'/api/wafers/[id]': { GET: 'viewer', token: 'read' },
 	'/sign-in': { GET: 'public', actions: { default: 'public' } },
 	'/sign-out': { GET: 'public', actions: { default: 'viewer' } },
 	'/account': { GET: 'viewer', actions: { password: 'viewer' } },
