@@ -12,7 +12,15 @@ export const RATIO_FLOOR = 0.01;
 
 export function chamberChartOption(s: ChamberSeries, c: ChartColors, zone: string, focus: { at: number; until: number } | null): EChartsCoreOption {
 	const clampPt = (t: number, v: number, i: number) => [t, Math.max(v, RATIO_FLOOR), v, s.ids[i]];
-	const line = (vals: (number | null)[]) => s.at.map((t, i) => [t, vals[i] === null ? null : Math.max(vals[i] as number, RATIO_FLOOR)]);
+	// Lines break where the chamber stood idle (a gap over 10× the median spacing, and at least 2 h),
+	// so an EWMA is not drawn straight across hours without wafers.
+	const gaps = s.at.slice(1).map((t, i) => t - s.at[i]).sort((a, b) => a - b);
+	const idle = Math.max(2 * 3_600_000, 10 * (gaps[Math.floor(gaps.length / 2)] ?? 0));
+	const line = (vals: (number | null)[]) =>
+		s.at.flatMap((t, i) => {
+			const pt: [number, number | null] = [t, vals[i] === null ? null : Math.max(vals[i] as number, RATIO_FLOOR)];
+			return i > 0 && t - s.at[i - 1] > idle ? [[t - 1, null] as [number, null], pt] : [pt];
+		});
 	const pointColor = (v: number) => (v > 1 ? c.alarm : c.info);
 	const marks = [
 		...s.maintenance.map((m) => ({ xAxis: m.at, name: m.label, lineStyle: { color: c.warn, type: 'dashed' as const }, label: { formatter: m.kind === 'wet_clean' ? 'clean' : m.kind === 'part_swap' ? 'swap' : 'PM', color: c.warn } })),
@@ -64,7 +72,7 @@ export function chamberChartOption(s: ChamberSeries, c: ChartColors, zone: strin
 		yAxis: [
 			yRatio(0, 'T² / limit'),
 			yRatio(1, 'Q / limit'),
-			{ type: 'value', gridIndex: 2, name: 'fleet z', ...axis, splitNumber: 2, min: (v: { min: number }) => Math.min(0, Math.floor(v.min)), max: (v: { max: number }) => Math.max(s.fleetThreshold + 1, Math.ceil(v.max)) }
+			{ type: 'value', gridIndex: 2, name: 'fleet z', ...axis, splitNumber: 2, min: (v: { min: number }) => Math.min(0, Math.floor(v.min)), ...(s.fleet.every((f) => f.modifiedZ < s.fleetThreshold + 1) ? { max: s.fleetThreshold + 1 } : {}) }
 		],
 		series: [
 			...(['t2', 'q'] as const).flatMap((stat, g) => {
