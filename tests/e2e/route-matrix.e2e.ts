@@ -20,6 +20,17 @@ interface Entry {
 }
 
 export const EXPECTED: Record<string, Entry> = {
+	// Alarm queue, baselines, maintenance, fleet matching, admin policy and cause codes (demo-seed samples).
+	'/alarms': { GET: 'viewer', actions: { acknowledge: 'engineer', close: 'engineer' } },
+	'/alarms/[id]': { path: '/alarms/1', GET: 'viewer', actions: { acknowledge: 'engineer', close: 'engineer' } },
+	'/baselines': { GET: 'viewer' },
+	'/baselines/[chamber]/[step]': { path: '/baselines/DE01-A/1', GET: 'viewer', actions: { draft: 'engineer', approve: 'engineer', discard: 'engineer', rescore: 'engineer' } },
+	'/maintenance': { GET: 'viewer', actions: { log: 'engineer' } },
+	'/admin/policy': { GET: 'admin', actions: { alarm: 'admin', baseline: 'admin', ingest: 'admin' } },
+	'/admin/cause-codes': { GET: 'admin', actions: { add: 'admin', rename: 'admin', retire: 'admin', restore: 'admin' } },
+	// An unknown task id answers 404: GET is probed by role with a real rescore task in baselines-build.e2e.ts.
+	'/api/tasks/[id]': { path: '/api/tasks/none' },
+	'/fleet': { GET: 'viewer', actions: { run: 'engineer', model: 'engineer' } },
 	'/': { GET: 'viewer' },
 	// Fleet heatmap, chamber and wafer-step screens and their JSON APIs (demo-seed samples).
 	'/api/heatmap': { GET: 'viewer' },
@@ -38,7 +49,11 @@ export const EXPECTED: Record<string, Entry> = {
 	'/uploads': { GET: 'engineer' },
 	'/admin/tokens': { GET: 'admin', actions: { create: 'admin', revoke: 'admin' } },
 	'/api/ingest': { POST: 'engineer' },
-	'/api/uploads': { GET: 'engineer' }
+	'/api/uploads': { GET: 'engineer' },
+	// Mail. /unsubscribe's GET needs a signed token (a bad one answers 400): mail-unsubscribe.e2e.ts tests it.
+	'/account/mail': { GET: 'viewer', actions: { save: 'viewer' } },
+	'/admin/mail': { GET: 'admin', actions: { send: 'admin', requeue: 'admin', policy: 'admin' } },
+	'/unsubscribe': { actions: { default: 'public' } }
 };
 
 const WHO: Who[] = ['anonymous', 'viewer', 'engineer', 'admin'];

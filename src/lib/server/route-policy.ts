@@ -21,6 +21,16 @@ export interface RoutePolicy {
 }
 
 export const ROUTE_POLICY: Record<string, RoutePolicy> = {
+	// Alarm queue, baselines, maintenance, fleet matching, admin policy and cause codes.
+	'/alarms': { GET: 'viewer', actions: { acknowledge: 'engineer', close: 'engineer' } },
+	'/alarms/[id]': { GET: 'viewer', actions: { acknowledge: 'engineer', close: 'engineer' } },
+	'/baselines': { GET: 'viewer' },
+	'/baselines/[chamber]/[step]': { GET: 'viewer', actions: { draft: 'engineer', approve: 'engineer', discard: 'engineer', rescore: 'engineer' } },
+	'/maintenance': { GET: 'viewer', actions: { log: 'engineer' } },
+	'/admin/policy': { GET: 'admin', actions: { alarm: 'admin', baseline: 'admin', ingest: 'admin' } },
+	'/admin/cause-codes': { GET: 'admin', actions: { add: 'admin', rename: 'admin', retire: 'admin', restore: 'admin' } },
+	'/api/tasks/[id]': { GET: 'viewer' },
+	'/fleet': { GET: 'viewer', actions: { run: 'engineer', model: 'engineer' } },
 	'/': { GET: 'viewer' },
 	// Fleet heatmap, chamber and wafer-step screens and their JSON APIs.
 	'/api/heatmap': { GET: 'viewer', token: 'read' },
@@ -42,7 +52,12 @@ export const ROUTE_POLICY: Record<string, RoutePolicy> = {
 	'/uploads': { GET: 'engineer' },
 	'/admin/tokens': { GET: 'admin', actions: { create: 'admin', revoke: 'admin' } },
 	'/api/ingest': { POST: 'engineer', token: 'ingest' },
-	'/api/uploads': { GET: 'engineer' }
+	'/api/uploads': { GET: 'engineer' },
+	// Mail: one's own settings (an admin may open anyone's; checked in the route), the admin outbox and
+	// mailbox, and the public unsubscribe page, where the signed token is the credential.
+	'/account/mail': { GET: 'viewer', actions: { save: 'viewer' } },
+	'/admin/mail': { GET: 'admin', actions: { send: 'admin', requeue: 'admin', policy: 'admin' } },
+	'/unsubscribe': { GET: 'public', actions: { default: 'public' } }
 };
 
 /** The form action named by a POST to a page: `?/name`, or `default`. */

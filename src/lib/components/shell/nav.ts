@@ -12,7 +12,14 @@ export interface NavItem {
 // Lockstep's own section names.
 export const NAV: NavItem[] = [
 	{ href: '/', label: 'Fleet', role: 'viewer', match: ['/'] },
+	{ href: '/alarms', label: 'Alarms', role: 'viewer', match: ['/alarms'] },
+	{ href: '/fleet', label: 'Matching', role: 'viewer', match: ['/fleet'] },
+	{ href: '/baselines', label: 'Baselines', role: 'viewer', match: ['/baselines'] },
+	{ href: '/maintenance', label: 'Maintenance', role: 'viewer', match: ['/maintenance'] },
 	{ href: '/uploads', label: 'Uploads', role: 'engineer', match: ['/uploads'] },
+	{ href: '/admin/policy', label: 'Policy', role: 'admin', match: ['/admin/policy', '/admin/cause-codes'] },
 	{ href: '/admin/users', label: 'People', role: 'admin', match: ['/admin/users'] },
-	{ href: '/admin/tokens', label: 'Tokens', role: 'admin', match: ['/admin/tokens'] }
+	{ href: '/admin/tokens', label: 'Tokens', role: 'admin', match: ['/admin/tokens'] },
+	{ href: '/account/mail', label: 'Mail', role: 'viewer', match: ['/account/mail'] },
+	{ href: '/admin/mail', label: 'Mailbox', role: 'admin', match: ['/admin/mail'] }
 ];

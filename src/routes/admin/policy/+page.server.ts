@@ -1,0 +1,48 @@
+import { fail } from '@sveltejs/kit';
+import { putSetting } from '$lib/server/settings';
+import { MAINTENANCE_KINDS } from '$lib/server/maintenance';
+import { policyFromForm, policyState } from '$lib/server/views/policy-view';
+import type { Actions, PageServerLoad } from './$types';
+
+export const load: PageServerLoad = async () => ({
+	alarm: await policyState('alarm_policy'),
+	baseline: await policyState('baseline_policy'),
+	ingest: await policyState('ingest_policy'),
+	maintenanceKinds: MAINTENANCE_KINDS
+});
+
+export const actions: Actions = {
+	alarm: async ({ request, locals }) => {
+		const value = policyFromForm(await request.formData(), {
+			booleans: ['singleEnabled', 'runEnabled', 'ewmaEnabled', 'fleetEnabled'],
+			numbers: ['runK', 'runM', 'ewmaLambda', 'ewmaL', 'fleetWindow']
+		});
+		if (typeof value.runK === 'number' && typeof value.runM === 'number' && value.runK > value.runM)
+			return fail(400, { action: 'alarm', errors: { runK: 'k cannot be larger than m (k of the last m wafers).' }, values: value });
+		const r = await putSetting('alarm_policy', value, locals.user!.id);
+		if (!r.ok) return fail(400, { action: 'alarm', errors: r.errors, values: value });
+		return { action: 'alarm', message: 'Alarm policy saved. It applies to wafers scored from now on.' };
+	},
+	baseline: async ({ request, locals }) => {
+		const value = policyFromForm(await request.formData(), {
+			booleans: ['fourEyes'],
+			numbers: ['seasoningWafers', 'alpha', 'warningAlpha'],
+			lists: ['requalifyOn']
+		});
+		if (typeof value.alpha === 'number' && typeof value.warningAlpha === 'number' && value.warningAlpha < value.alpha)
+			return fail(400, {
+				action: 'baseline',
+				errors: { warningAlpha: 'The warning α must be at least the alarm α (a warning limit sits inside the alarm limit).' },
+				values: value
+			});
+		const r = await putSetting('baseline_policy', value, locals.user!.id);
+		if (!r.ok) return fail(400, { action: 'baseline', errors: r.errors, values: value });
+		return { action: 'baseline', message: 'Baseline policy saved. New drafts use it; existing baselines keep their own α.' };
+	},
+	ingest: async ({ request, locals }) => {
+		const value = policyFromForm(await request.formData(), { booleans: [], numbers: [], strings: ['unknownChamber'] });
+		const r = await putSetting('ingest_policy', value, locals.user!.id);
+		if (!r.ok) return fail(400, { action: 'ingest', errors: r.errors, values: value });
+		return { action: 'ingest', message: 'Ingest policy saved.' };
+	}
+};

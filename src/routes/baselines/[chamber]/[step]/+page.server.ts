@@ -1,0 +1,158 @@
+import { error, fail } from '@sveltejs/kit';
+import { approveBaseline, BaselineError, createDraftBaseline, discardDraft } from '$lib/server/baselines';
+import { db } from '$lib/server/db';
+import { fromLocalInput, safeZone, toLocalInput } from '$lib/components/display/format';
+import { hasRole } from '$lib/server/roles';
+import { rescoreSince } from '$lib/server/scoring';
+import { runningTasks, startTask } from '$lib/server/tasks';
+import { baselineWorkspace, candidatesFor } from '$lib/server/views/baseline-view';
+import type { Actions, PageServerLoad, RequestEvent } from './$types';
+
+const HOUR = 3_600_000;
+
+async function workspaceOf(params: { chamber: string; step: string }) {
+	const stepId = Number(params.step);
+	if (!Number.isInteger(stepId) || stepId <= 0) error(404, `No recipe step "${params.step}".`);
+	const ws = await baselineWorkspace(params.chamber, stepId);
+	if (!ws) error(404, `No chamber ${params.chamber} with recipe step ${params.step}.`);
+	return ws;
+}
+
+export const load: PageServerLoad = async ({ params, url, locals }) => {
+	const ws = await workspaceOf(params);
+	const zone = safeZone(locals.user?.timeZone);
+	const last = ws.range.last ?? Date.now();
+	// Default range: since the requalify began (after maintenance), else the last week of wafers.
+	const dflt = { from: ws.chamber.requalifySince ?? last - 7 * 24 * HOUR, to: last };
+	const fromText = url.searchParams.get('from');
+	const toText = url.searchParams.get('to');
+	const rangeErrors: Record<string, string> = {};
+	let from = dflt.from;
+	let to = dflt.to;
+	if (fromText) {
+		const t = fromLocalInput(fromText, zone);
+		if (t === null) rangeErrors.from = 'Not a date and time; showing the default range.';
+		else from = t;
+	}
+	if (toText) {
+		const t = fromLocalInput(toText, zone);
+		if (t === null) rangeErrors.to = 'Not a date and time; showing the default range.';
+		else to = t + 59_999; // the whole minute
+	}
+	if (from > to) {
+		rangeErrors.from = '“From” is after “to”; showing the default range.';
+		from = dflt.from;
+		to = dflt.to;
+	}
+	const candidates = await candidatesFor({ chamberId: ws.chamber.id, recipeStepId: ws.step.id, from, to });
+	const tasks = runningTasks('rescore').filter((t) => t.label.startsWith(`${ws.chamber.code} · ${ws.step.recipeCode} ${ws.step.stepName}`));
+	return {
+		ws,
+		range: { from, to, fromInput: toLocalInput(from, zone), toInput: toLocalInput(to, zone), errors: rangeErrors },
+		candidates,
+		selectedDraft: Number(url.searchParams.get('draft')) || ws.drafts[0]?.id || null,
+		tasks,
+		canAct: hasRole(locals.user?.role, 'engineer'),
+		userId: locals.user?.id ?? null
+	};
+};
+
+type Errors = Record<string, string>;
+const text = (f: FormData, n: string) => String(f.get(n) ?? '').trim();
+
+function startRescore(ws: Awaited<ReturnType<typeof workspaceOf>>, since: number, userId: string) {
+	return startTask(
+		{ kind: 'rescore', label: `${ws.chamber.code} · ${ws.step.recipeCode} ${ws.step.stepName} since ${new Date(since).toISOString()}`, createdBy: userId },
+		async (ctx) => {
+			const r = await rescoreSince(db(), { chamberId: ws.chamber.id, recipeStepId: ws.step.id, since, chunk: 250 }, (done, total) => ctx.progress(done, total));
+			return { rescored: r.rescored };
+		}
+	);
+}
+
+function rescoreFrom(f: FormData, zone: string): { since: number | null; error?: string } {
+	const raw = text(f, 'rescoreFrom');
+	if (!raw) return { since: null, error: 'Give the time to rescore from.' };
+	const since = fromLocalInput(raw, zone);
+	return since === null ? { since: null, error: 'Not a date and time (e.g. 2026-11-20 06:00).' } : { since };
+}
+
+export const actions: Actions = {
+	draft: async ({ request, params, locals }: RequestEvent) => {
+		const ws = await workspaceOf(params);
+		const f = await request.formData();
+		const values = { alpha: text(f, 'alpha'), components: text(f, 'components'), scaling: text(f, 'scaling'), note: text(f, 'note') };
+		const errors: Errors = {};
+		const ids = f.getAll('waferStepId').map((v) => Number(v));
+		if (ids.some((n) => !Number.isInteger(n) || n <= 0)) errors.waferStepIds = 'The wafer selection is not valid; reload the page.';
+		const alpha = Number(values.alpha);
+		if (!(alpha > 0 && alpha < 0.5)) errors.alpha = 'α must lie between 0 and 0.5 (0.01 means one false alarm per hundred good wafers).';
+		else if (alpha > ws.policy.warningAlpha) errors.alpha = `α must not exceed the warning α of the policy (${ws.policy.warningAlpha}).`;
+		let components: number | 'auto' = 'auto';
+		if (values.components && values.components !== 'auto') {
+			const c = Number(values.components);
+			if (!Number.isInteger(c) || c < 1 || c > Math.min(ids.length - 1, ws.step.features)) errors.components = `Give a whole number from 1 to ${Math.max(1, Math.min(ids.length - 1, ws.step.features))}, or “auto”.`;
+			else components = c;
+		}
+		if (!['autoscale', 'pareto', 'none'].includes(values.scaling)) errors.scaling = 'Choose a scaling.';
+		if (values.note.length > 500) errors.note = 'Keep the note under 500 characters.';
+		if (Object.keys(errors).length) return fail(400, { action: 'draft', errors, values, ids });
+		try {
+			const d = await createDraftBaseline({
+				chamberId: ws.chamber.id,
+				recipeStepId: ws.step.id,
+				waferStepIds: ids,
+				alpha,
+				components,
+				scaling: values.scaling as 'autoscale',
+				builtBy: locals.user!.id,
+				note: values.note || undefined
+			});
+			return { action: 'draft', draftId: d.id, message: `Draft v${d.version} fitted on ${d.summary.n} wafers with ${d.summary.k} component${d.summary.k === 1 ? '' : 's'}. Review it below.` };
+		} catch (e) {
+			if (e instanceof BaselineError) return fail(400, { action: 'draft', errors: { [e.field ?? 'form']: e.message }, values, ids });
+			throw e;
+		}
+	},
+	approve: async ({ request, params, locals }: RequestEvent) => {
+		const ws = await workspaceOf(params);
+		const f = await request.formData();
+		const id = Number(text(f, 'baselineId'));
+		if (!ws.drafts.some((d) => d.id === id)) return fail(400, { action: 'approve', id, errors: { form: 'That draft is not under review here any more; reload the page.' } });
+		const rescore = f.get('rescore') === 'on';
+		let since: number | null = null;
+		if (rescore) {
+			const r = rescoreFrom(f, safeZone(locals.user!.timeZone));
+			if (r.error) return fail(400, { action: 'approve', id, errors: { rescoreFrom: r.error } });
+			since = r.since;
+		}
+		try {
+			await approveBaseline(id, locals.user!.id);
+		} catch (e) {
+			if (e instanceof BaselineError) return fail(400, { action: 'approve', id, errors: { form: e.message } });
+			throw e;
+		}
+		const task = since !== null ? startRescore(ws, since, locals.user!.id) : null;
+		return { action: 'approve', id, taskId: task?.id ?? null, message: `v${ws.drafts.find((d) => d.id === id)!.version} is now the active baseline${ws.active ? `; v${ws.active.version} is retired` : ''}.` };
+	},
+	discard: async ({ request, params }: RequestEvent) => {
+		const ws = await workspaceOf(params);
+		const id = Number(text(await request.formData(), 'baselineId'));
+		if (!ws.drafts.some((d) => d.id === id)) return fail(400, { action: 'discard', id, errors: { form: 'That draft is not under review here any more; reload the page.' } });
+		try {
+			await discardDraft(id);
+		} catch (e) {
+			if (e instanceof BaselineError) return fail(400, { action: 'discard', id, errors: { form: e.message } });
+			throw e;
+		}
+		return { action: 'discard', id, message: 'Draft discarded.' };
+	},
+	rescore: async ({ request, params, locals }: RequestEvent) => {
+		const ws = await workspaceOf(params);
+		if (!ws.active) return fail(400, { action: 'rescore', errors: { form: 'There is no active baseline to rescore against.' } });
+		const r = rescoreFrom(await request.formData(), safeZone(locals.user!.timeZone));
+		if (r.error) return fail(400, { action: 'rescore', errors: { rescoreFrom: r.error } });
+		const task = startRescore(ws, r.since!, locals.user!.id);
+		return { action: 'rescore', taskId: task.id, message: 'Rescoring started.' };
+	}
+};
