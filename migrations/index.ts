@@ -7,12 +7,14 @@ import type { Knex } from 'knex';
 import * as foundation from './20261201000000_foundation.ts';
 import * as defaultCauseCodes from './20261201000100_default_cause_codes.ts';
 import * as fleetMatches from './20261201000200_fleet_matches.ts';
+import * as rollupIndex from './20261201000300_rollup_covering_index.ts';
 import * as mail from './20261201020000_mail.ts';
 
 const migrations: Record<string, Knex.Migration> = {
 	'20261201000000_foundation.ts': foundation,
 	'20261201000100_default_cause_codes.ts': defaultCauseCodes,
 	'20261201000200_fleet_matches.ts': fleetMatches,
+	'20261201000300_rollup_covering_index.ts': rollupIndex,
 	'20261201020000_mail.ts': mail
 };
 
