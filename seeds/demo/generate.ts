@@ -7,10 +7,17 @@ import { stream } from './rng';
 import { rfSecondsPerWafer, scheduleWafers, WAFERS_PER_CHAMBER_DAY, type ScheduledWafer } from './schedule';
 import type { DemoScenario, DemoWaferStep } from './types';
 
-/** Golden-wafer story: after each wet clean, skip the seasoning window, qualify the next wafers, then
- * keep every n-th wafer (metrology-sampled) until the next clean, so golden sets span the clouding. */
+/** Golden-wafer story: after each wet clean, skip the seasoning window, qualify the next wafers (at
+ * most {@link QUALIFICATION_PER_LOT} from any one lot), then keep every n-th wafer (metrology-sampled)
+ * until the next clean, so golden sets span the clouding and many lots. */
 export const SEASONING_WAFERS = 30;
 export const QUALIFICATION_WAFERS = 12;
+/**
+ * Qualification wafers taken from one lot, at most. Lots differ (film thickness, etch-product load),
+ * and a qualification set of 12 consecutive wafers is one or two lots: the baseline then learns too
+ * little of the lot-to-lot spread and every later lot a little off the qualifying one trips Q.
+ */
+export const QUALIFICATION_PER_LOT = 2;
 export const GOLDEN_SAMPLE_EVERY = 5;
 /** Gap between the end of one step and the start of the next, s. */
 const STEP_GAP_S = 3;
@@ -115,7 +122,8 @@ function* chamberSteps(
 			else if (ep.kind === 'air_leak') conditions.airLeakSccm = airLeakSccm(ep, w.startMs, endMs);
 			else if (ep.kind === 'he_backside_leak') conditions.heLeakSccm = heLeakSccm(ep, w.startMs, endMs);
 		}
-		const golden = !excluded && sinceClean >= SEASONING_WAFERS && isGolden(w.recipe, qualified, sampled);
+		const golden =
+			!excluded && sinceClean >= SEASONING_WAFERS && isGolden(w.recipe, w.lotId, qualified, sampled);
 
 		let t = w.startMs;
 		for (const m of models.get(w.recipe)!) {
@@ -141,10 +149,20 @@ function* chamberSteps(
 	}
 }
 
-function isGolden(recipe: string, qualified: Map<string, number>, sampled: Map<string, number>): boolean {
+/** `qualified` counts per recipe and per recipe × lot in this clean cycle; `sampled` per recipe. */
+function isGolden(
+	recipe: string,
+	lotId: string,
+	qualified: Map<string, number>,
+	sampled: Map<string, number>
+): boolean {
 	const q = qualified.get(recipe) ?? 0;
 	if (q < QUALIFICATION_WAFERS) {
+		const key = `${recipe}\u0000${lotId}`;
+		const inLot = qualified.get(key) ?? 0;
+		if (inLot >= QUALIFICATION_PER_LOT) return false;
 		qualified.set(recipe, q + 1);
+		qualified.set(key, inLot + 1);
 		return true;
 	}
 	const s = (sampled.get(recipe) ?? 0) + 1;

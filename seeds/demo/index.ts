@@ -10,11 +10,12 @@ export type {
 	DemoWaferStep,
 	EpisodeKind
 } from './types';
-export { buildScenario, DEFAULT_DAYS, DEFAULT_END, DEFAULT_SEED } from './scenario';
+export { buildScenario, CLEAN_INTERVAL_WAFERS, DEFAULT_DAYS, DEFAULT_END, DEFAULT_SEED } from './scenario';
 export {
 	generateWaferSteps,
 	goldenWaferKeys,
 	GOLDEN_SAMPLE_EVERY,
+	QUALIFICATION_PER_LOT,
 	QUALIFICATION_WAFERS,
 	SEASONING_WAFERS
 } from './generate';

@@ -3,6 +3,7 @@ import { buildEpisodes } from './episodes';
 import { featureCatalog } from './features';
 import { RECIPE_PHYSICS } from './recipes';
 import { stream } from './rng';
+import { DOWNTIME_H, rfSecondsPerWafer, scheduleWafers, WAFERS_PER_CHAMBER_DAY } from './schedule';
 import type { DemoEpisode, DemoMaintenance, DemoScenario } from './types';
 
 export const DEFAULT_SEED = 20261123;
@@ -46,11 +47,7 @@ export function buildScenario(opts: { seed?: number; end?: Date; days?: number }
 		steps: r.steps.map((s) => ({ name: s.name, durationS: s.durationS }))
 	}));
 	const episodes = buildEpisodes(startMs, endMs);
-	const maintenance = chambers
-		.flatMap((c) => chamberMaintenance(seed, c.code, startMs, endMs, episodes))
-		.sort((a, b) => a.at.getTime() - b.at.getTime() || a.chamberCode.localeCompare(b.chamberCode));
-
-	return {
+	const base = {
 		seed,
 		fab: { ...FAB },
 		areas: AREAS.map((a) => ({ ...a })),
@@ -59,35 +56,41 @@ export function buildScenario(opts: { seed?: number; end?: Date; days?: number }
 		recipes,
 		features: featureCatalog(),
 		people: PEOPLE.map((p) => ({ ...p })),
-		maintenance,
 		episodes,
 		start: new Date(startMs),
 		end: new Date(endMs)
 	};
+	const maintenance = fabMaintenance(seed, base, startMs, endMs).sort(
+		(a, b) => a.at.getTime() - b.at.getTime() || a.chamberCode.localeCompare(b.chamberCode)
+	);
+	return { ...base, maintenance };
 }
 
 /**
- * One chamber's maintenance: wet cleans every 5–9 days (staggered by the chamber's own stream),
- * starting with the last clean before the window, plus the episodes' forced events (the part swap and
- * the seal-replacement PM, each followed by a wet clean). No periodic clean falls inside an episode
- * that a clean would not end, so the story stays readable.
+ * Wet cleans are triggered by each chamber's RF-hours counter, as a fab's PM system does (common
+ * practice): every chamber has its own interval, the RF time of 100–140 of its wafers (about 6–8
+ * days at the demo's pace), met to within a few percent; the counter's reading at the start of the
+ * window staggers the chambers. Cleaning by the calendar instead would let a slow week and a busy
+ * week end at very different window clouding, and a baseline built on the short cycles would then
+ * flag the long one's wafers: that is what PM counters avoid.
  */
-function chamberMaintenance(
-	seed: number,
-	chamberCode: string,
-	startMs: number,
-	endMs: number,
-	episodes: DemoEpisode[]
-): DemoMaintenance[] {
-	const rng = stream(seed, `cleans:${chamberCode}`);
-	const tech = () => TECHNICIANS[rng.int(0, TECHNICIANS.length - 1)];
-	const out: DemoMaintenance[] = [];
-	const forced: number[] = [];
-	const blackouts: { from: number; until: number | null }[] = [];
+export const CLEAN_INTERVAL_WAFERS = [100, 140] as const;
+
+interface ChamberPlan {
+	events: DemoMaintenance[];
+	/** Wet cleans forced by the episodes' maintenance (after the part swap, after the seal PM). */
+	forced: number[];
+	/** Spans in which no periodic clean is planned (the story stays readable); until null: to the end. */
+	blackouts: { from: number; until: number | null }[];
+}
+
+/** The episodes' own maintenance on a chamber: the part swap and the seal-replacement PM, each followed by a wet clean. */
+function episodeMaintenance(chamberCode: string, episodes: DemoEpisode[]): ChamberPlan {
+	const plan: ChamberPlan = { events: [], forced: [], blackouts: [] };
 	for (const ep of episodes.filter((e) => e.chamberCode === chamberCode)) {
 		const s = ep.start.getTime();
 		if (ep.kind === 'part_swap_offset') {
-			out.push({
+			plan.events.push({
 				chamberCode,
 				kind: 'part_swap',
 				at: new Date(s),
@@ -95,43 +98,103 @@ function chamberMaintenance(
 				comment:
 					'Focus ring replaced at end of life (new ring from a new supplier lot); chamber wet-cleaned after the swap.'
 			});
-			forced.push(s + 3 * HOUR_MS);
+			plan.forced.push(s + 3 * HOUR_MS);
 		} else if (ep.kind === 'he_backside_leak' && ep.end) {
 			const e = ep.end.getTime();
-			out.push({
+			plan.events.push({
 				chamberCode,
 				kind: 'pm',
 				at: new Date(e),
 				byUsername: 'ikowalczyk',
 				comment: 'ESC helium seal replaced after rising backside He flow; He leak-up rate back in spec.'
 			});
-			forced.push(e + 2 * HOUR_MS);
-			blackouts.push({ from: s - DAY_MS, until: e + 2 * HOUR_MS });
+			plan.forced.push(e + 2 * HOUR_MS);
+			plan.blackouts.push({ from: s - DAY_MS, until: e + 2 * HOUR_MS });
 		} else if (ep.kind === 'air_leak') {
-			blackouts.push({ from: s - 1.5 * DAY_MS, until: null });
+			plan.blackouts.push({ from: s - 1.5 * DAY_MS, until: null });
 		}
 	}
+	return plan;
+}
+
+/**
+ * The maintenance log of every chamber: the episodes' events, then wet cleans placed by each chamber's
+ * RF-hours counter. The counter runs on a provisional schedule of the window's wafers (lots as they
+ * will arrive, the episodes' downtime only); the final schedule moves a few wafers to sibling chambers
+ * around each clean's downtime, so cycles end within a few percent of their interval. No periodic
+ * clean falls inside an episode that a clean would not end; a forced clean within 1.5 days after a
+ * planned one replaces it.
+ */
+function fabMaintenance(
+	seed: number,
+	base: Omit<DemoScenario, 'maintenance'>,
+	startMs: number,
+	endMs: number
+): DemoMaintenance[] {
+	const plans = new Map(base.chambers.map((c) => [c.code, episodeMaintenance(c.code, base.episodes)]));
+	const forcedCleans = (code: string, plan: ChamberPlan): DemoMaintenance[] =>
+		plan.forced.map((at) => ({
+			chamberCode: code,
+			kind: 'wet_clean' as const,
+			at: new Date(at),
+			byUsername: 'ikowalczyk',
+			comment: 'Wet clean after maintenance; seasoning wafers to follow.'
+		}));
+	const provisional: DemoScenario = {
+		...base,
+		maintenance: [...plans].flatMap(([code, p]) => [...p.events, ...forcedCleans(code, p)])
+	};
+	const wafers = scheduleWafers(provisional, seed);
 	const minute = (ms: number) => Math.floor(ms / 60_000) * 60_000;
-	let t = minute(startMs - rng.between(1, 8) * DAY_MS);
-	const cleans = [t];
-	for (;;) {
-		let cand = minute(t + rng.between(5, 9) * DAY_MS);
-		const bo = blackouts.find((b) => cand >= b.from && (b.until === null || cand < b.until));
-		if (bo) {
-			if (bo.until === null) break;
-			cand = bo.until;
+	const out: DemoMaintenance[] = [];
+	for (const c of base.chambers) {
+		const plan = plans.get(c.code)!;
+		const rng = stream(seed, `cleans:${c.code}`);
+		const tech = () => TECHNICIANS[rng.int(0, TECHNICIANS.length - 1)];
+		const rfS = rfSecondsPerWafer(provisional, c.recipes[0]);
+		const interval = rng.between(CLEAN_INTERVAL_WAFERS[0], CLEAN_INTERVAL_WAFERS[1]) * rfS;
+		const target = () => interval * (1 + 0.03 * Math.max(-2, Math.min(2, rng.normal())));
+		// Counter reading at the window's start: it dates the last clean before the window.
+		let counter = rng.between(0.1, 0.85) * interval;
+		const cleans: number[] = [minute(startMs - (counter / (WAFERS_PER_CHAMBER_DAY * rfS)) * DAY_MS)];
+		let due = target();
+		let downUntil = -Infinity;
+		let stopped = false;
+		const forced = [...plan.forced].sort((a, b) => a - b);
+		for (const w of wafers.get(c.code) ?? []) {
+			if (stopped) break;
+			const f = forced.find((x) => x > cleans[cleans.length - 1] && x <= w.startMs);
+			if (f !== undefined) {
+				cleans.push(f);
+				counter = 0;
+				due = target();
+				downUntil = f + DOWNTIME_H.wet_clean * HOUR_MS;
+			}
+			if (w.startMs < downUntil) continue;
+			counter += rfS;
+			if (counter < due) continue;
+			let at = minute(w.startMs + (rfS + 100) * 1000);
+			const bo = plan.blackouts.find((b) => at >= b.from && (b.until === null || at < b.until));
+			if (bo) {
+				if (bo.until === null) stopped = true;
+				continue; // the clean waits for the episode's own (forced) clean, or for the end
+			}
+			if (forced.some((x) => x > at && x <= at + 1.5 * DAY_MS)) continue;
+			if (at >= endMs) break;
+			cleans.push(at);
+			counter = 0;
+			due = target();
+			downUntil = at + DOWNTIME_H.wet_clean * HOUR_MS;
 		}
-		const f = forced.find((f) => f > t && f <= cand + 1.5 * DAY_MS);
-		if (f !== undefined) cand = f;
-		if (cand >= endMs) break;
-		cleans.push(cand);
-		t = cand;
-	}
-	for (const at of cleans) {
-		const comment = forced.includes(at)
-			? 'Wet clean after maintenance; seasoning wafers to follow.'
-			: WET_CLEAN_COMMENTS[rng.int(0, WET_CLEAN_COMMENTS.length - 1)];
-		out.push({ chamberCode, kind: 'wet_clean', at: new Date(at), byUsername: tech(), comment });
+		for (const f of forced) if (!cleans.includes(f) && f < endMs) cleans.push(f);
+		cleans.sort((a, b) => a - b);
+		out.push(...plan.events);
+		for (const at of cleans) {
+			const comment = plan.forced.includes(at)
+				? 'Wet clean after maintenance; seasoning wafers to follow.'
+				: WET_CLEAN_COMMENTS[rng.int(0, WET_CLEAN_COMMENTS.length - 1)];
+			out.push({ chamberCode: c.code, kind: 'wet_clean', at: new Date(at), byUsername: tech(), comment });
+		}
 	}
 	return out;
 }

@@ -9,6 +9,11 @@ const HOUR_MS = 3_600_000;
 export const WAFERS_PER_CHAMBER_DAY = 17.5;
 /** Wafer handling between steps' RF time (transfer, pump-down, stabilisation), s. */
 const OVERHEAD_S = 100;
+/**
+ * Lot-to-lot spread (1 σ) of the etch-product load within one recipe: the same product and mask, so
+ * only incoming film thickness and resist vary, about 2 % (demo choice, from memory).
+ */
+export const LOT_LOAD_SD = 0.02;
 /** Chamber out of production after each kind of maintenance, h. */
 export const DOWNTIME_H = { wet_clean: 5, part_swap: 3, pm: 2 } as const;
 
@@ -64,7 +69,7 @@ export function scheduleWafers(scenario: DemoScenario, seed: number): Map<string
 				arrival: Math.round(t / 1000) * 1000,
 				size,
 				recipe,
-				load: 0.04 * rng.normal()
+				load: LOT_LOAD_SD * rng.normal()
 			});
 		}
 	}

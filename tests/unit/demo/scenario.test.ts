@@ -1,6 +1,12 @@
 import { readFileSync } from 'node:fs';
 import { describe, expect, it } from 'vitest';
-import { buildScenario, DEFAULT_END, EPISODE_CHAMBERS } from '../../../seeds/demo/index';
+import {
+	buildScenario,
+	CLEAN_INTERVAL_WAFERS,
+	DEFAULT_END,
+	EPISODE_CHAMBERS
+} from '../../../seeds/demo/index';
+import { demo } from './fixture';
 
 const DAY = 86_400_000;
 
@@ -54,7 +60,7 @@ describe('demo scenario', () => {
 		for (const m of sc.maintenance) expect(names.has(m.byUsername)).toBe(true);
 	});
 
-	it('wet-cleans every chamber every 5–9 days, staggered, from a clean before the window', () => {
+	it('wet-cleans every chamber by its RF-hours counter, staggered, from a clean before the window', () => {
 		const firstInWindow = new Set<number>();
 		for (const c of sc.chambers) {
 			const cleans = sc.maintenance
@@ -65,12 +71,35 @@ describe('demo scenario', () => {
 			expect(inWindow.length).toBeGreaterThanOrEqual(2);
 			firstInWindow.add(Math.floor((inWindow[0] - sc.start.getTime()) / DAY));
 			// The He-leak chamber's clean waits for the seal repair (the story), so its gap may reach 13 days.
-			const maxGap = c.code === EPISODE_CHAMBERS.heLeak ? 13 * DAY : 9 * DAY;
+			const maxGap = c.code === EPISODE_CHAMBERS.heLeak ? 13 * DAY : 10 * DAY;
 			for (let i = 1; i < cleans.length; i++) expect(cleans[i] - cleans[i - 1]).toBeLessThanOrEqual(maxGap);
 		}
 		expect(firstInWindow.size).toBeGreaterThanOrEqual(4);
 		const sorted = sc.maintenance.map((m) => m.at.getTime());
 		expect([...sorted].sort((a, b) => a - b)).toEqual(sorted);
+	});
+
+	it('ends every complete clean cycle of a chamber at about the same wafer count (a PM counter, not the calendar)', () => {
+		const { rows } = demo();
+		const episodic = new Set(sc.episodes.map((e) => e.chamberCode));
+		let cycles = 0;
+		for (const c of sc.chambers.filter((c) => !episodic.has(c.code))) {
+			const step = sc.recipes.find((r) => r.code === c.recipes[0])!.steps[0].name;
+			const mine = rows
+				.filter((r) => r.chamberCode === c.code && r.step === step)
+				.map((r) => r.processedAt.getTime());
+			const cleans = sc.maintenance
+				.filter((m) => m.chamberCode === c.code && m.kind === 'wet_clean' && m.at >= sc.start)
+				.map((m) => m.at.getTime());
+			const counts = cleans.slice(1).map((t, i) => mine.filter((x) => x > cleans[i] && x < t).length);
+			for (const n of counts) {
+				expect(n, c.code).toBeGreaterThanOrEqual(0.85 * CLEAN_INTERVAL_WAFERS[0]);
+				expect(n, c.code).toBeLessThanOrEqual(1.1 * CLEAN_INTERVAL_WAFERS[1]);
+				expect(n / Math.min(...counts), c.code).toBeLessThan(1.3);
+			}
+			cycles += counts.length;
+		}
+		expect(cycles).toBeGreaterThanOrEqual(30);
 	});
 
 	it('documents the four episodes on four different chambers, inside the window', () => {
