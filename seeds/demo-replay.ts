@@ -58,11 +58,13 @@ export async function replayDemo(k: Knex, s: DemoScenario, log: (s: string) => v
 
 	async function endOfDay(until: number) {
 		setClock(until); // what happens now happens at the demo's time
+		// The technicians log the day's cleans as they happen, so wafers after a clean are seen as
+		// seasoning when they are scored.
+		while (mIdx < maintenance.length && maintenance[mIdx].at.getTime() <= until) await logMaintenanceEvent(maintenance[mIdx++]);
 		const loaded = await loadDemoDay(k, s, day, new Date(until - DAY).toISOString().slice(0, 10), null);
 		report.waferSteps += loaded.waferSteps;
 		report.files += loaded.files;
 		day = [];
-		while (mIdx < maintenance.length && maintenance[mIdx].at.getTime() <= until) await logMaintenanceEvent(maintenance[mIdx++]);
 		await engineersAtWork(until);
 		// The morning review of the day before; the demo's last two days are left for the user.
 		if (until <= s.end.getTime() - 2 * DAY) await reviewAlarms(k, s, engineers, until - DAY / 2, report);

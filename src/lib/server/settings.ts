@@ -15,10 +15,12 @@ export const AlarmPolicy = z.object({
 	runEnabled: z.boolean().default(true),
 	runK: z.number().int().min(2).max(20).default(3),
 	runM: z.number().int().min(2).max(50).default(5),
-	/** EWMA of the worst ratio above its upper limit. */
+	/** EWMA of the T² ratio or of the Q ratio above its upper limit. */
 	ewmaEnabled: z.boolean().default(true),
 	ewmaLambda: z.number().gt(0).max(1).default(0.2),
-	ewmaL: z.number().gt(0).max(6).default(3),
+	// 3.5 rather than the textbook 3: consecutive wafers of a lot are correlated, which the EWMA
+	// variance formula (independent values) does not see; measured on the demo fab (common practice).
+	ewmaL: z.number().gt(0).max(6).default(3.5),
 	/** Chamber flagged by fleet matching (|modified z| > 3.5). */
 	fleetEnabled: z.boolean().default(true),
 	/** Wafers in the seasoning window after a wet clean (baseline policy's seasoningWafers) open no wafer alarms. */
