@@ -78,7 +78,7 @@ describe('baselines in the browser', () => {
 		await draftForm.getByRole('button', { name: /Fit draft/ }).click();
 		await page.getByTestId('draft-facts').waitFor();
 		expect(await page.getByTestId('draft-facts').textContent()).toContain(String(ticked));
-		await page.locator('figure[aria-label^="Explained variance"] svg').first().waitFor();
+		await page.locator('[role="img"][aria-label^="Explained variance"] canvas').first().waitFor();
 		await screenshot(page, 'baseline-draft-review');
 		// Four-eyes: the builder is told, and the server refuses.
 		expect(await page.getByText('the policy asks another engineer to approve it').count()).toBe(1);

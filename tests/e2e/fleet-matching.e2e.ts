@@ -56,7 +56,7 @@ describe('fleet matching', () => {
 		await check.waitFor();
 		expect(['pass', 'attention']).toContain(await check.getAttribute('data-verdict'));
 		expect(await check.textContent()).toContain("the fab's own release procedure");
-		await page.locator('figure[aria-label^="O 777.4"] svg').first().waitFor();
+		await page.locator('[role="img"][aria-label^="O 777.4"] canvas').first().waitFor();
 		await screenshot(page, 'fleet-matching');
 		// A viewer has no "run now", and the server refuses it.
 		expect(await page.getByRole('button', { name: 'Run matching now' }).count()).toBe(0);

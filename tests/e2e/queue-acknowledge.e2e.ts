@@ -114,7 +114,7 @@ describe('alarm queue', () => {
 		await tta.scrollIntoViewIfNeeded();
 		expect(await tta.locator('tbody tr').count()).toBeGreaterThan(0);
 		expect(await tta.textContent()).toMatch(/\d+ (min|h|d)/);
-		await page.locator('figure[aria-label^="Acknowledgements per cause code"] svg').first().waitFor();
+		await page.locator('[role="img"][aria-label^="Acknowledgements per cause code"] canvas').first().waitFor();
 		await screenshot(page, 'queue-analytics');
 		await ctx.close();
 	});

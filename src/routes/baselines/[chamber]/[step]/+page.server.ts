@@ -22,8 +22,10 @@ export const load: PageServerLoad = async ({ params, url, locals }) => {
 	const ws = await workspaceOf(params);
 	const zone = safeZone(locals.user?.timeZone);
 	const last = ws.range.last ?? Date.now();
-	// Default range: since the requalify began (after maintenance), else the last week of wafers.
-	const dflt = { from: ws.chamber.requalifySince ?? last - 7 * 24 * HOUR, to: last };
+	// Default range: since the requalify began (after maintenance), else the last week of wafers. When
+	// the maintenance came after the latest wafer, the range runs from it to now (and is empty for now).
+	const from0 = ws.chamber.requalifySince ?? last - 7 * 24 * HOUR;
+	const dflt = { from: from0, to: Math.max(last, from0 > last ? Date.now() : last) };
 	const fromText = url.searchParams.get('from');
 	const toText = url.searchParams.get('to');
 	const rangeErrors: Record<string, string> = {};
