@@ -5,6 +5,8 @@
 import { config } from '../src/lib/server/config.ts';
 import { runInbox } from './ingest-inbox.ts';
 import { runFleetJob } from './fleet-matching.ts';
+import { runMailSchedule } from './mail-digests.ts';
+import { runOutbox } from './mail-outbox.ts';
 
 export interface Job {
 	name: string;
@@ -15,5 +17,9 @@ export interface Job {
 
 export const JOBS: Job[] = [
 	{ name: 'ingest-inbox', schedule: config.ingestCron, run: () => runInbox() },
-	{ name: 'fleet-matching', schedule: process.env.LOCKSTEP_FLEET_CRON ?? '7 * * * *', run: () => runFleetJob() }
+	{ name: 'fleet-matching', schedule: process.env.LOCKSTEP_FLEET_CRON ?? '7 * * * *', run: () => runFleetJob() },
+	// digests at each subscriber's time in their zone, and grouped alarm mails
+	{ name: 'mail-schedule', schedule: '* * * * *', run: () => runMailSchedule() },
+	// the outbox, every 10 s (six-field cron: seconds first); starts the local sink where it is used
+	{ name: 'mail-outbox', schedule: '*/10 * * * * *', run: () => runOutbox() }
 ];

@@ -25,6 +25,8 @@ export interface RenderedMail {
 }
 
 export const CHART_CID = 'worst-ratio-chart@lockstep';
+/** Longer lists are cut here, with a link to the full list in Lockstep: a digest is read in minutes. */
+export const MAX_ROWS = 30;
 
 export function renderDigest(
 	d: DigestData,
@@ -110,7 +112,7 @@ export function renderDigest(
 			'Acknowledged since the last digest',
 			table(
 				['When', 'Chamber', 'Rule', 'Cause', 'Recommendation', 'By'],
-				d.acknowledged.map((a) => [
+				d.acknowledged.slice(-MAX_ROWS).map((a) => [
 					esc(when(a.at)),
 					link(mailLinks.alarm(a.alarmId), a.chamberCode),
 					esc(a.rule),
@@ -119,7 +121,8 @@ export function renderDigest(
 					esc(a.userName ?? '—')
 				])
 			),
-			'No alarm was acknowledged in this period.'
+			'No alarm was acknowledged in this period.',
+			d.acknowledged.length > MAX_ROWS ? `The last ${MAX_ROWS} of ${d.acknowledged.length} are listed; ${link(mailLinks.alarmsAcknowledged(), 'all acknowledged alarms')}.` : undefined
 		)
 	);
 	H.push(
@@ -157,9 +160,10 @@ export function renderDigest(
 			'Maintenance done',
 			table(
 				['When', 'Chamber', 'Work', 'By', 'Note'],
-				d.maintenance.map((m) => [esc(when(m.at)), esc(m.chamberCode), esc(m.kind), esc(m.userName ?? '—'), esc((m.comment ?? '').slice(0, 200) || '—')])
+				d.maintenance.slice(-MAX_ROWS).map((m) => [esc(when(m.at)), esc(m.chamberCode), esc(m.kind), esc(m.userName ?? '—'), esc((m.comment ?? '').slice(0, 200) || '—')])
 			),
-			'No maintenance was logged in this period.'
+			'No maintenance was logged in this period.',
+			d.maintenance.length > MAX_ROWS ? `The last ${MAX_ROWS} of ${d.maintenance.length} are listed; ${link(mailLinks.maintenance(), 'the maintenance log')}.` : undefined
 		)
 	);
 	H.push(notice('Recommendations only', esc(RECOMMENDATION_NOTE), 'info'));
@@ -189,7 +193,8 @@ export function renderDigest(
 	if (open > d.openAlarms.length) T.push(`(the oldest ${d.openAlarms.length} of ${open}; all: ${mailLinks.openAlarms()})`);
 	head('Acknowledged since the last digest');
 	if (!d.acknowledged.length) T.push('No alarm was acknowledged in this period.');
-	for (const a of d.acknowledged)
+	if (d.acknowledged.length > MAX_ROWS) T.push(`(the last ${MAX_ROWS} of ${d.acknowledged.length}; all: ${mailLinks.alarmsAcknowledged()})`);
+	for (const a of d.acknowledged.slice(-MAX_ROWS))
 		T.push(
 			`* ${when(a.at)}  ${a.chamberCode}  ${a.rule}  cause ${a.causeCode ?? '—'} ${a.causeTitle ?? ''}  → ${a.disposition ?? '—'}  by ${a.userName ?? '—'}${a.comment ? `  “${a.comment.slice(0, 200)}”` : ''}`,
 			`  ${mailLinks.alarm(a.alarmId)}`
@@ -206,7 +211,8 @@ export function renderDigest(
 		);
 	head('Maintenance done');
 	if (!d.maintenance.length) T.push('No maintenance was logged in this period.');
-	for (const m of d.maintenance) T.push(`* ${when(m.at)}  ${m.chamberCode}  ${m.kind}  by ${m.userName ?? '—'}${m.comment ? `  “${m.comment.slice(0, 200)}”` : ''}`);
+	if (d.maintenance.length > MAX_ROWS) T.push(`(the last ${MAX_ROWS} of ${d.maintenance.length}; all: ${mailLinks.maintenance()})`);
+	for (const m of d.maintenance.slice(-MAX_ROWS)) T.push(`* ${when(m.at)}  ${m.chamberCode}  ${m.kind}  by ${m.userName ?? '—'}${m.comment ? `  “${m.comment.slice(0, 200)}”` : ''}`);
 	T.push('', RECOMMENDATION_NOTE, '', `For ${o.displayName}, covering ${o.scopeLabel}.`, `Open Lockstep: ${mailLinks.home()}`, `Mail settings: ${mailLinks.mailSettings()}`, `Unsubscribe: ${o.unsubscribeUrl}`);
 
 	return {

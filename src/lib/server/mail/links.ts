@@ -7,6 +7,7 @@ const q = encodeURIComponent;
 export const mailLinks = {
 	home: () => abs('/'),
 	alarm: (id: number) => abs(`/alarms/${id}`),
+	alarmsAcknowledged: () => abs('/alarms?state=acknowledged'),
 	openAlarms: (chamber?: string) => abs(`/alarms?state=open${chamber ? `&chamber=${q(chamber)}` : ''}`),
 	chamber: (code: string) => abs(`/chambers/${q(code)}`),
 	wafer: (waferStepId: number) => abs(`/wafers/${waferStepId}`),
