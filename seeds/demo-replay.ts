@@ -26,8 +26,8 @@ export interface ReplayReport {
 const DAY = 86_400_000;
 /** Golden wafers needed before the first baseline of a chamber × step (enough for ~250 features' k). */
 const FIRST_BASELINE_GOLDEN = 40;
-/** Golden wafers of a new clean cycle before the chamber is requalified with a rebuilt baseline. */
-const REQUALIFY_GOLDEN = 12;
+/** Golden wafers (per recipe step) of a new clean cycle before the chamber is requalified with a rebuilt baseline. */
+const REQUALIFY_GOLDEN = 8;
 /** A rebuilt baseline uses the most recent golden wafers, across clean cycles, so it spans window clouding. */
 const BASELINE_GOLDEN_MAX = 80;
 

@@ -37,7 +37,7 @@ export const EXPECTED: Record<string, Entry> = {
 	'/chambers/[code]': { path: '/chambers/DE01-A', GET: 'viewer' },
 	'/api/chambers/[code]/series': { path: '/api/chambers/DE01-A/series', GET: 'viewer' },
 	'/api/chambers/[code]/wafers': { path: '/api/chambers/DE01-A/wafers', GET: 'viewer' },
-	'/wafers/[id]': { path: '/wafers/1', GET: 'viewer' },
+	'/wafers/[id]': { path: '/wafers/1', GET: 'viewer', actions: { acknowledge: 'engineer' } },
 	'/api/wafers/[id]': { path: '/api/wafers/1', GET: 'viewer' },
 	'/sign-in': { GET: 'public', actions: { default: 'public' } },
 	'/sign-out': { GET: 'public', actions: { default: 'viewer' } },

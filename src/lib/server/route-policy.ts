@@ -37,7 +37,7 @@ export const ROUTE_POLICY: Record<string, RoutePolicy> = {
 	'/chambers/[code]': { GET: 'viewer' },
 	'/api/chambers/[code]/series': { GET: 'viewer', token: 'read' },
 	'/api/chambers/[code]/wafers': { GET: 'viewer', token: 'read' },
-	'/wafers/[id]': { GET: 'viewer' },
+	'/wafers/[id]': { GET: 'viewer', actions: { acknowledge: 'engineer' } },
 	'/api/wafers/[id]': { GET: 'viewer', token: 'read' },
 	'/sign-in': { GET: 'public', actions: { default: 'public' } },
 	'/sign-out': { GET: 'public', actions: { default: 'viewer' } },

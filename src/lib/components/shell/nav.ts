@@ -11,7 +11,7 @@ export interface NavItem {
 
 // Lockstep's own section names.
 export const NAV: NavItem[] = [
-	{ href: '/', label: 'Fleet', role: 'viewer', match: ['/'] },
+	{ href: '/', label: 'Fleet', role: 'viewer', match: ['/', '/chambers', '/wafers'] },
 	{ href: '/alarms', label: 'Alarms', role: 'viewer', match: ['/alarms'] },
 	{ href: '/fleet', label: 'Matching', role: 'viewer', match: ['/fleet'] },
 	{ href: '/baselines', label: 'Baselines', role: 'viewer', match: ['/baselines'] },
