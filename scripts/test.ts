@@ -40,6 +40,13 @@ const add = (c: Counts) => {
 	total.skipped += c.skipped;
 };
 
+console.log('\n── type check (svelte-check) ──');
+const check = spawnSync(bin('svelte-kit'), ['sync'], { stdio: 'inherit' });
+const types = check.status === 0 ? spawnSync(bin('svelte-check'), ['--tsconfig', './tsconfig.json', '--threshold', 'error', '--output', 'human'], { stdio: 'inherit' }) : check;
+// One check counted as one test, so a type error fails the run visibly.
+if (types.status === 0) total.passed += 1;
+else total.failed += 1;
+
 add(vitest('unit-and-integration', []));
 
 console.log('\n── build ──');
