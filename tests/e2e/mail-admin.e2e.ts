@@ -7,6 +7,7 @@ import path from 'node:path';
 import { afterAll, beforeAll, describe, expect, inject, it } from 'vitest';
 import type { Knex } from 'knex';
 import { openDb } from '../../src/lib/server/db.ts';
+import { unsubscribeToken } from '../../src/lib/server/mail/unsubscribe.ts';
 import { sendDue } from '../../src/lib/server/mail/sender.ts';
 import { startMailSink, type MailSink } from '../../src/lib/server/mail/sink.ts';
 import { createMailTransport } from '../../src/lib/server/mail/transport.ts';
@@ -80,6 +81,37 @@ describe('admin mail page', () => {
 			await page.getByRole('tab', { name: 'Text part' }).click();
 			await expect.poll(() => page.getByTestId('message-text').textContent()).toContain('Five worst wafer-steps');
 			await screenshot(page, 'mail-admin-text-part');
+		} finally {
+			await browser.close();
+		}
+	});
+
+	it('marks a bad field on the settings page in the browser, keeps what was typed, then saves', async () => {
+		const browser = await launch();
+		try {
+			const page = await browser.newPage({ viewport: { width: 1280, height: 1000 } });
+			await signInPage(page, base(), 'e2e-engineer', TEST_PASSWORD);
+			await page.waitForURL(`${base()}/`);
+			await page.goto(`${base()}/account/mail`);
+			await page.getByLabel('E-mail address').fill('engineer@wrenfield.example');
+			await page.getByLabel('Time zone').fill('Europe/Wien');
+			await page.getByRole('button', { name: 'Save mail settings' }).click();
+			await expect.poll(() => page.getByText('"Europe/Wien" is not a time zone name').isVisible()).toBe(true);
+			expect(await page.getByLabel('Time zone').getAttribute('aria-invalid')).toBe('true');
+			expect(await page.getByLabel('E-mail address').inputValue()).toBe('engineer@wrenfield.example');
+			await screenshot(page, 'mail-settings-error');
+			await page.getByLabel('Time zone').fill('Europe/Vienna');
+			await page.getByRole('button', { name: 'Save mail settings' }).click();
+			await expect.poll(() => page.getByText('Your mail settings are saved.').isVisible()).toBe(true);
+			const id = (await k('users').where({ username: 'e2e-engineer' }).first('id')).id;
+			expect((await k('mail_subscriptions').where({ user_id: id }).first()).time_zone).toBe('Europe/Vienna');
+			// the unsubscribe page, as someone who is not signed in sees it
+			const anon = await browser.newPage({ viewport: { width: 900, height: 600 } });
+			await anon.goto(`${base()}/unsubscribe?token=${encodeURIComponent(await unsubscribeToken(id, 'digest', k))}`);
+			await screenshot(anon, 'mail-unsubscribe');
+			await anon.getByRole('button', { name: 'Stop morning digests' }).click();
+			await expect.poll(() => anon.getByTestId('unsubscribed').isVisible()).toBe(true);
+			expect((await k('mail_subscriptions').where({ user_id: id }).first()).digest_enabled).toBe(0);
 		} finally {
 			await browser.close();
 		}

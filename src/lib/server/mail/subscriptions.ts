@@ -110,7 +110,7 @@ export async function validateSubscription(input: SubscriptionInput, k: Knex = d
 	const email = input.email.trim();
 	if (!email) errors.email = 'Give the address the mail should go to.';
 	else if (email.length > 254 || !EMAIL.test(email)) errors.email = `"${email.slice(0, 80)}" is not an e-mail address (name@host).`;
-	if (!parseClockTime(input.digestTime)) errors.digestTime = 'Give the digest time as HH:MM, 24-hour (e.g. 06:30).';
+	if (!parseClockTime(input.digestTime)) errors.digestTime = 'Give the digest time as hours and minutes, e.g. 06:30.';
 	if (!isTimeZone(input.timeZone)) errors.timeZone = `"${input.timeZone.slice(0, 64)}" is not a time zone name (e.g. Europe/Vienna, America/Phoenix, UTC).`;
 	if (input.alarmMinSeverity !== 'warning' && input.alarmMinSeverity !== 'alarm') errors.alarmMinSeverity = 'Choose warning or alarm.';
 	if (input.areaCodes.length) {
