@@ -50,6 +50,7 @@ export async function seedDemo(k: Knex, opts: { log: (s: string) => void; end?: 
 	for (const p of scenario.people) await createUser({ ...p, password: DEMO_PASSWORD, timeZone: scenario.fab.timeZone }, k);
 	await createStructure(k, scenario);
 	const report: ReplayReport = await replayDemo(k, scenario, opts.log);
+	await (await import('./demo-mail.ts')).seedDemoMail(k, opts.log);
 	const secs = ((performance.now() - t0) / 1000).toFixed(1);
 	const lines = [
 		`Demo fab "${scenario.fab.name}" loaded in ${secs} s: ${report.waferSteps.toLocaleString('en')} wafer-steps from ${report.files} files, ` +
