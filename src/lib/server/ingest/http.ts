@@ -26,7 +26,8 @@ export interface HttpAnswer {
 }
 
 function refusal(status: number, error: string, file: string | null, report?: IngestReport): HttpAnswer {
-	const loc = report?.fileError;
+	// A refused file names its one error; a file whose every row was refused names its first rejection.
+	const loc = report?.fileError ?? report?.rejections[0];
 	return {
 		status,
 		body: { error, location: { file, line: loc?.line || null, column: loc?.column ?? null }, ...(report ? { report } : {}) }
@@ -95,6 +96,9 @@ export async function ingestRequest(request: Request, url: URL, ctx: IngestReque
 		if (track) finishProgress(owner, track, report);
 		if (report.status === 'rejected') return refusal(report.fileError?.kind === 'size' ? 413 : 400, report.summary, name, report);
 		if (report.status === 'failed') return refusal(500, report.summary, name, report);
+		// Read to the end but not one row stored (the inbox quarantines such a file): the sender must
+		// not take a 200 for it.
+		if (report.status === 'done' && report.rows.accepted + report.rows.duplicate === 0) return refusal(422, report.summary, name, report);
 		return { status: 200, body: report };
 	} finally {
 		await fs.promises.rm(spooled.path, { force: true });

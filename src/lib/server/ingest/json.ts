@@ -2,14 +2,20 @@
  * JSON input for the API: an array of row objects, or { rows: [...] }, with the same fields as the CSV
  * columns. The first row's keys are the header; "line" in messages is the row's 1-based position.
  */
-import { IngestFileError } from './errors.ts';
+import { clip, IngestFileError } from './errors.ts';
 import type { FileWriter } from './writer.ts';
 
 function cell(v: unknown): string {
 	if (v === null || v === undefined) return '';
 	if (typeof v === 'string') return v;
 	if (typeof v === 'number') return String(v);
-	return JSON.stringify(v);
+	if (typeof v !== 'object') return String(v);
+	// An object or array is never a valid cell; a deeply nested one would overflow JSON.stringify's stack.
+	try {
+		return clip(JSON.stringify(v));
+	} catch {
+		return Array.isArray(v) ? '[…]' : '{…}';
+	}
 }
 
 /** Where JSON.parse stopped, as line and column of the text (V8 reports a character position). */

@@ -9,6 +9,7 @@ import path from 'node:path';
 import type { Readable } from 'node:stream';
 import { config } from '../config.ts';
 import { ByteInspector, type InspectResult } from './bytes.ts';
+import { IngestFileError } from './errors.ts';
 
 export function spoolDir(): string {
 	const dir = path.join(config.dataDir, 'tmp', 'ingest');
@@ -35,7 +36,8 @@ export async function spoolStream(
 	const out = fs.createWriteStream(p);
 	let done = 0;
 	try {
-		for await (const chunk of input as AsyncIterable<Buffer>) {
+		// destroyOnReturn: false keeps the body readable after a refusal, so the rest can be drained below.
+		for await (const chunk of input.iterator({ destroyOnReturn: false }) as AsyncIterable<Buffer>) {
 			const buf = Buffer.isBuffer(chunk) ? chunk : Buffer.from(chunk);
 			inspector.update(buf);
 			done += buf.length;
@@ -45,9 +47,25 @@ export async function spoolStream(
 		await new Promise<void>((resolve, reject) => out.end((err?: Error | null) => (err ? reject(err) : resolve())));
 		return { path: p, info: inspector.finish() };
 	} catch (e) {
-		input.destroy();
 		out.destroy();
 		await fs.promises.rm(p, { force: true });
+		// A body refused for its content (binary, encoding, an over-long line) is read to its end, up to
+		// the size limit, so the client gets the located answer instead of a connection reset mid-send.
+		if (e instanceof IngestFileError && e.kind === 'input') await drain(input, opts.limitBytes - done);
+		input.destroy();
 		throw e;
+	}
+}
+
+/** Read and discard up to `maxBytes` more of a stream; stops early (the caller destroys it) beyond that. */
+async function drain(input: Readable, maxBytes: number): Promise<void> {
+	let left = maxBytes;
+	try {
+		for await (const chunk of input as AsyncIterable<Buffer>) {
+			left -= chunk.length;
+			if (left < 0) return;
+		}
+	} catch {
+		/* the client went away: nothing to answer */
 	}
 }
