@@ -46,7 +46,9 @@ function candidates(dir: string, settleMs: number): string[] {
 		.readdirSync(dir, { withFileTypes: true })
 		.filter((e) => e.isFile() && !e.name.startsWith('.') && !/\.(part|tmp)$/i.test(e.name) && !e.name.endsWith('.report.json'))
 		.map((e) => ({ name: e.name, mtime: fs.statSync(path.join(dir, e.name)).mtimeMs }))
-		.filter((f) => t - f.mtime >= settleMs)
+		// settleMs 0 takes every file, even one whose mtime runs a little ahead of this clock (a file
+		// system on another host's clock).
+		.filter((f) => settleMs <= 0 || t - f.mtime >= settleMs)
 		.sort((a, b) => a.mtime - b.mtime || a.name.localeCompare(b.name))
 		.map((f) => f.name);
 }

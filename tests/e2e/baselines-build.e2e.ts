@@ -64,7 +64,10 @@ describe('baselines in the browser', () => {
 	it('builds a draft, is refused by four-eyes, and a second person approves it with a rescore', async () => {
 		const ctx = await browser.newContext({ viewport: { width: 1280, height: 800 } });
 		const page = await ctx.newPage();
-		await signInTo(page, 'engineer', `${PAGE}`);
+		// Three weeks of wafers: enough fair candidates whatever the time of day the demo was seeded
+		// (a week can hold a wet clean whose seasoning wafers are excluded). Times are the user's (UTC).
+		const from = new Date(Date.now() - 21 * 86_400_000).toISOString().slice(0, 16);
+		await signInTo(page, 'engineer', `${PAGE}${PAGE.includes('?') ? '&' : '?'}from=${encodeURIComponent(from)}`);
 		const draftForm = page.getByTestId('draft-form');
 		// Excluded wafers are unticked with their reason; the fair ones are ticked.
 		const ticked = await draftForm.locator('input[name="waferStepId"]:checked').count();

@@ -8,7 +8,21 @@ import type { Knex } from 'knex';
 import { db } from './db.ts';
 import { now } from './time.ts';
 
-export const THROTTLE = { windowMs: 15 * 60_000, perAccount: 5, perAddress: 20 } as const;
+function limit(name: string, fallback: number): number {
+	const v = Number(process.env[name]);
+	return Number.isInteger(v) && v > 0 ? v : fallback;
+}
+
+/**
+ * The limits. LOCKSTEP_SIGNIN_ADDRESS_LIMIT raises the per-address one where many people share one
+ * address (a proxy, a terminal server) — and for the e2e suite, whose every request comes from
+ * 127.0.0.1; the per-account limit stays.
+ */
+export const THROTTLE = {
+	windowMs: 15 * 60_000,
+	perAccount: limit('LOCKSTEP_SIGNIN_ACCOUNT_LIMIT', 5),
+	perAddress: limit('LOCKSTEP_SIGNIN_ADDRESS_LIMIT', 20)
+} as const;
 
 export interface ThrottleState {
 	blocked: boolean;
