@@ -9,13 +9,15 @@ import * as defaultCauseCodes from './20261201000100_default_cause_codes.ts';
 import * as fleetMatches from './20261201000200_fleet_matches.ts';
 import * as rollupIndex from './20261201000300_rollup_covering_index.ts';
 import * as mail from './20261201020000_mail.ts';
+import * as featureSetProposals from './20261201030000_feature_set_proposals.ts';
 
 const migrations: Record<string, Knex.Migration> = {
 	'20261201000000_foundation.ts': foundation,
 	'20261201000100_default_cause_codes.ts': defaultCauseCodes,
 	'20261201000200_fleet_matches.ts': fleetMatches,
 	'20261201000300_rollup_covering_index.ts': rollupIndex,
-	'20261201020000_mail.ts': mail
+	'20261201020000_mail.ts': mail,
+	'20261201030000_feature_set_proposals.ts': featureSetProposals
 };
 
 export const migrationSource: Knex.MigrationSource<string> = {

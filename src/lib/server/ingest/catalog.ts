@@ -30,6 +30,8 @@ export interface StepPlan {
 	derived: DerivedSpec[];
 	/** set when the file's feature columns differ from the step's set: every row of the step is refused */
 	refusal: string | null;
+	/** with a refusal: the file's columns that the step's set lacks, and the set's columns the file lacks */
+	mismatch: { added: string[]; missing: string[] } | null;
 }
 
 export interface Created {
@@ -48,6 +50,42 @@ export function derivedFor(features: readonly Pick<FeatureColumn, 'name' | 'kind
 	return plan.ratios
 		.filter((r) => !names.has(r.name))
 		.map((r) => ({ name: r.name, numerator: oes[r.numeratorIndex].i, denominator: oes[r.denominatorIndex].i }));
+}
+
+/**
+ * Write a catalog version for a recipe step: the measured features in the given order, then the
+ * actinometry ratios they support (derivedFor). Used for a step's first set and for an accepted new set.
+ * @returns the number of catalog entries written
+ */
+export async function insertCatalog(
+	trx: Knex.Transaction,
+	recipeStepId: number,
+	setVersion: number,
+	features: readonly Omit<FeatureColumn, 'index'>[]
+): Promise<number> {
+	const F = features.length;
+	const rows = [
+		...features.map((f, position) => ({
+			recipe_step_id: recipeStepId,
+			set_version: setVersion,
+			position,
+			name: f.name,
+			kind: f.kind,
+			wavelength_nm: f.wavelengthNm,
+			unit: f.unit
+		})),
+		...derivedFor(features).map((d, i) => ({
+			recipe_step_id: recipeStepId,
+			set_version: setVersion,
+			position: F + i,
+			name: d.name,
+			kind: 'derived',
+			wavelength_nm: null,
+			unit: null
+		}))
+	];
+	for (let i = 0; i < rows.length; i += 500) await trx('features').insert(rows.slice(i, i + 500));
+	return rows.length;
 }
 
 export async function resolveStepPlan(
@@ -72,27 +110,7 @@ export async function resolveStepPlan(
 			.returning('id');
 		const recipeStepId = id(s);
 		const F = header.features.length;
-		const rows = [
-			...header.features.map((f, position) => ({
-				recipe_step_id: recipeStepId,
-				set_version: 1,
-				position,
-				name: f.name,
-				kind: f.kind,
-				wavelength_nm: f.wavelengthNm,
-				unit: f.unit
-			})),
-			...derived.map((d, i) => ({
-				recipe_step_id: recipeStepId,
-				set_version: 1,
-				position: F + i,
-				name: d.name,
-				kind: 'derived',
-				wavelength_nm: null,
-				unit: null
-			}))
-		];
-		for (let i = 0; i < rows.length; i += 500) await trx('features').insert(rows.slice(i, i + 500));
+		await insertCatalog(trx, recipeStepId, 1, header.features);
 		created.recipeSteps.push(`${recipeCode} / ${stepName}`);
 		return {
 			recipeStepId,
@@ -100,7 +118,8 @@ export async function resolveStepPlan(
 			positions: Int32Array.from(header.features.map((_, i) => i)),
 			length: F + derived.length,
 			derived: derived.map((d, i) => ({ ...d, position: F + i })),
-			refusal: null
+			refusal: null,
+			mismatch: null
 		};
 	}
 	const catalog: Array<{ position: number; name: string; kind: string }> = await trx('features')
@@ -126,7 +145,8 @@ export async function resolveStepPlan(
 			...base,
 			positions: new Int32Array(0),
 			derived: [],
-			refusal: `The feature columns differ from the set fixed for ${recipeCode} / ${stepName} (feature set ${step.feature_set_version}) — ${parts.join('; ')}. An engineer must accept a new feature set first.`
+			mismatch: { added: extra, missing },
+			refusal: `The feature columns differ from the set fixed for ${recipeCode} / ${stepName} (feature set ${step.feature_set_version}) — ${parts.join('; ')}. An engineer must accept a new feature set first (Uploads → Feature-set changes); until then these rows are refused.`
 		};
 	}
 	const derivedPositions = new Map(catalog.filter((c) => c.kind === 'derived').map((c) => [c.name, c.position]));
@@ -136,9 +156,9 @@ export async function resolveStepPlan(
 	return {
 		...base,
 		positions: Int32Array.from(header.features.map((f) => byName.get(f.name)!)),
-		derived: plannedDerived.map((d) => ({ ...d, position: derivedPositions.get(d.name)! }))
-		,
-		refusal: null
+		derived: plannedDerived.map((d) => ({ ...d, position: derivedPositions.get(d.name)! })),
+		refusal: null,
+		mismatch: null
 	};
 }
 

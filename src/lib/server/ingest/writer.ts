@@ -13,6 +13,7 @@ import { BATCH_ROWS, ID_MAX, INSERT_ROWS, MAX_ERRORS_PER_ROW, REPORT_DUPLICATE_C
 import type { DuplicateRow, Rejection } from './report.ts';
 import { parseId, parseInstant, parseNumberCell, parseRfOn, parseSlot } from './values.ts';
 import { encodeValues } from '../feature-values.ts';
+import { recordProposal } from './feature-sets.ts';
 
 export interface WriterOptions {
 	fileId: number;
@@ -64,6 +65,8 @@ export class FileWriter {
 	private readonly seen = new Map<string, number>();
 	private readonly chambers = new Map<string, number | null>();
 	private readonly plans = new Map<string, StepPlan>();
+	/** rows refused because their step's feature set differs, per plan: each becomes a proposal */
+	private readonly refusedForSet = new Map<StepPlan, number>();
 	private readonly latestAllowed: number;
 
 	constructor(
@@ -157,6 +160,7 @@ export class FileWriter {
 			plan = this.plans.get(`${ids.recipe}\u0000${ids.step}`);
 			if (plan?.refusal) {
 				errors.push({ line, column: null, value: null, reason: plan.refusal });
+				this.refusedForSet.set(plan, (this.refusedForSet.get(plan) ?? 0) + 1);
 				plan = undefined;
 			}
 		}
@@ -330,6 +334,17 @@ export class FileWriter {
 	async finish(): Promise<WriterStats> {
 		await this.flush();
 		await this.flushRejections();
+		const columns = this.header?.features.map((f) => f.name) ?? [];
+		for (const [plan, rows] of this.refusedForSet)
+			await recordProposal(this.trx, {
+				fileId: this.opts.fileId,
+				recipeStepId: plan.recipeStepId,
+				baseSetVersion: plan.featureSetVersion,
+				columns,
+				added: plan.mismatch?.added ?? [],
+				missing: plan.mismatch?.missing ?? [],
+				rows
+			});
 		return this.stats;
 	}
 }
