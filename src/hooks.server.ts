@@ -1,4 +1,4 @@
-import { error, redirect, type Handle } from '@sveltejs/kit';
+import { error, type Handle } from '@sveltejs/kit';
 import { sequence } from '@sveltejs/kit/hooks';
 import { luciaFor } from '$lib/server/auth';
 import { decide } from '$lib/server/route-policy';
@@ -80,7 +80,8 @@ const authorize: Handle = async ({ event, resolve }) => {
 	}
 	if (d.status === 401 && event.request.method === 'GET') {
 		const next = event.url.pathname + event.url.search;
-		redirect(303, `/sign-in?next=${encodeURIComponent(next)}`);
+		// Returned rather than thrown (redirect()), so that the `headers` handle adds the security headers.
+		return new Response(null, { status: 303, headers: { location: `/sign-in?next=${encodeURIComponent(next)}` } });
 	}
 	error(d.status, d.reason);
 };
