@@ -14,7 +14,8 @@
 import fs from 'node:fs';
 import os from 'node:os';
 import path from 'node:path';
-import { pathToFileURL } from 'node:url';
+import { spawnSync } from 'node:child_process';
+import { fileURLToPath, pathToFileURL } from 'node:url';
 import Database from 'better-sqlite3';
 import { XSadd } from 'ml-xsadd';
 import type { Knex } from 'knex';
@@ -131,7 +132,7 @@ async function timeHttp(dir: string, ids: number[]): Promise<number[] | null> {
 	}
 }
 
-export async function runWaferBench(): Promise<Figure[]> {
+async function measure(): Promise<Figure[]> {
 	const dir = fs.mkdtempSync(path.join(os.tmpdir(), 'lockstep-bench-wafer-'));
 	const file = path.join(dir, 'lockstep.sqlite');
 	const figures: Figure[] = [];
@@ -188,7 +189,21 @@ export async function runWaferBench(): Promise<Figure[]> {
 	return figures;
 }
 
+/**
+ * Runs in a child process: the baseline-model cache (baselines.ts) is per process and keyed by baseline
+ * id, and the other benches in `npm run bench` fill it from their own databases with the same ids.
+ */
+export async function runWaferBench(): Promise<Figure[]> {
+	const r = spawnSync(process.execPath, ['--import', 'tsx', fileURLToPath(import.meta.url), '--json'], { encoding: 'utf8', stdio: ['ignore', 'pipe', 'inherit'], maxBuffer: 16 << 20 });
+	if (r.status !== 0) throw new Error(`bench/wafer.ts failed (${r.status})`);
+	return JSON.parse(r.stdout.trim().split('\n').pop()!) as Figure[];
+}
+
 if (process.argv[1] && import.meta.url === pathToFileURL(process.argv[1]).href) {
-	const figures = await runWaferBench();
+	const figures = await measure();
+	if (process.argv.includes('--json')) {
+		console.log(JSON.stringify(figures));
+		process.exit(0);
+	}
 	for (const f of figures) console.log(`${f.name.padEnd(80)} ${(Number.isNaN(f.value) ? '—' : f.value.toFixed(1) + ' ' + f.unit).padStart(12)} ${(f.target ?? '').padStart(10)}`);
 }

@@ -108,7 +108,7 @@ function position(output: string): number {
 async function check(k: Knex) {
 	const total = Number((await k('wafer_steps').where('wafer_id', 'like', 'X%').count({ n: '*' }).first())?.n);
 	const distinct = Number((await k.from(k('wafer_steps').where('wafer_id', 'like', 'X%').distinct('wafer_id', 'recipe_step_id').as('d')).count({ n: '*' }).first())?.n);
-	const perFile = await k('ingest_files').whereIn('original_name', FILES).groupBy('original_name', 'status').select('original_name', 'status').count({ n: '*' });
+	const perFile = (await k('ingest_files').whereIn('original_name', FILES).groupBy('original_name', 'status').select('original_name', 'status').count({ n: '*' })) as { original_name: string; status: string; n: number }[];
 	const multiScored = await k('scores').where({ current: true }).groupBy('wafer_step_id').having(k.raw('count(*) > 1')).select('wafer_step_id');
 	const unscored = Number((await k('wafer_steps').where('wafer_id', 'like', 'X%').whereNot('scoring_state', 'scored').count({ n: '*' }).first())?.n);
 	// Scored wafer-steps per chamber × step × hour, from the scores themselves.
