@@ -299,6 +299,7 @@ const PAGES: Record<string, string> = {
 	'/account': '/account',
 	'/admin/users': '/admin/users',
 	'/uploads': '/uploads',
+	'/uploads/feature-sets': '/uploads/feature-sets',
 	'/admin/tokens': '/admin/tokens',
 	'/account/mail': '/account/mail',
 	'/admin/mail': '/admin/mail',

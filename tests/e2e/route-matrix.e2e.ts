@@ -47,6 +47,7 @@ export const EXPECTED: Record<string, Entry> = {
 	'/api/me': { GET: 'viewer' },
 	'/api/fleet': { GET: 'viewer' },
 	'/uploads': { GET: 'engineer' },
+	'/uploads/feature-sets': { GET: 'viewer', actions: { accept: 'engineer', dismiss: 'engineer' } },
 	'/admin/tokens': { GET: 'admin', actions: { create: 'admin', revoke: 'admin' } },
 	'/api/ingest': { POST: 'engineer' },
 	'/api/uploads': { GET: 'engineer' },

@@ -50,6 +50,8 @@ export const ROUTE_POLICY: Record<string, RoutePolicy> = {
 	'/api/me': { GET: 'viewer' },
 	'/api/fleet': { GET: 'viewer', token: 'read' },
 	'/uploads': { GET: 'engineer' },
+	// Feature-set changes: everyone sees them (a refused step matters to all); engineers decide.
+	'/uploads/feature-sets': { GET: 'viewer', actions: { accept: 'engineer', dismiss: 'engineer' } },
 	'/admin/tokens': { GET: 'admin', actions: { create: 'admin', revoke: 'admin' } },
 	'/api/ingest': { POST: 'engineer', token: 'ingest' },
 	'/api/uploads': { GET: 'engineer' },

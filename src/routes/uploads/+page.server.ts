@@ -2,6 +2,7 @@ import { error } from '@sveltejs/kit';
 import { config } from '$lib/server/config';
 import { getFileReport, listRecentFiles } from '$lib/server/ingest/files';
 import { REQUIRED_COLUMNS } from '$lib/server/ingest/columns';
+import { listFeatureSetProposals } from '$lib/server/ingest/feature-sets';
 import type { PageServerLoad } from './$types';
 
 export const load: PageServerLoad = async ({ url }) => {
@@ -17,6 +18,9 @@ export const load: PageServerLoad = async ({ url }) => {
 		limitBytes: config.uploadLimitBytes,
 		required: [...REQUIRED_COLUMNS],
 		recent: await listRecentFiles(25),
-		selected
+		selected,
+		pendingFeatureSets: (await listFeatureSetProposals({ status: 'pending' })).length,
+		// proposals this file made or was counted on (its rows refused for their columns)
+		fileProposals: selected ? await listFeatureSetProposals({ fileId: Number(raw) }) : []
 	};
 };
