@@ -137,6 +137,9 @@ describe('feature-set changes over HTTP', () => {
 		await page.goto(`${base()}/uploads/feature-sets`);
 		const card = page.getByTestId(`proposal-${id}`);
 		await card.getByText('− chuck_temp_c').waitFor();
+		await card.getByText('Accept as set 3…').click();
+		await card.getByText('unscored until a baseline of set 3 is approved').waitFor();
+		await screenshot(page, 'feature-sets-pending');
 		await card.getByText('Dismiss…').click();
 		await card.getByRole('button', { name: `Dismiss proposal #${id}` }).click();
 		await page.getByTestId('action-message').filter({ hasText: `Proposal #${id} dismissed` }).waitFor();
