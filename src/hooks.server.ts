@@ -4,6 +4,7 @@ import { luciaFor } from '$lib/server/auth';
 import { decide } from '$lib/server/route-policy';
 import { securityHeaders } from '$lib/server/security-headers';
 import { closeDb } from '$lib/server/db';
+import { clearHeatmapCache } from '$lib/server/views/heatmap-cache';
 import { bearerToken, verifyApiToken } from '$lib/server/api-tokens';
 import { THEME_COOKIE, themeFromCookie, withHtmlTheme } from '$lib/components/ui/theme';
 
@@ -97,4 +98,11 @@ const headers: Handle = async ({ event, resolve }) => {
 	return response;
 };
 
-export const handle = sequence(headers, session, bearer, authorize);
+/** A change made through this server (upload, acknowledgement, approval) shows on the next heatmap poll. */
+const freshness: Handle = async ({ event, resolve }) => {
+	const response = await resolve(event);
+	if (event.request.method !== 'GET' && event.request.method !== 'HEAD') clearHeatmapCache();
+	return response;
+};
+
+export const handle = sequence(headers, session, bearer, authorize, freshness);
