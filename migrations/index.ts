@@ -10,6 +10,7 @@ import * as fleetMatches from './20261201000200_fleet_matches.ts';
 import * as rollupIndex from './20261201000300_rollup_covering_index.ts';
 import * as mail from './20261201020000_mail.ts';
 import * as featureSetProposals from './20261201030000_feature_set_proposals.ts';
+import * as rollupSeasoning from './20261201040000_rollup_seasoning.ts';
 
 const migrations: Record<string, Knex.Migration> = {
 	'20261201000000_foundation.ts': foundation,
@@ -17,7 +18,8 @@ const migrations: Record<string, Knex.Migration> = {
 	'20261201000200_fleet_matches.ts': fleetMatches,
 	'20261201000300_rollup_covering_index.ts': rollupIndex,
 	'20261201020000_mail.ts': mail,
-	'20261201030000_feature_set_proposals.ts': featureSetProposals
+	'20261201030000_feature_set_proposals.ts': featureSetProposals,
+	'20261201040000_rollup_seasoning.ts': rollupSeasoning
 };
 
 export const migrationSource: Knex.MigrationSource<string> = {

@@ -163,3 +163,35 @@ describe('several violations in one batch', () => {
 		expect(single[0].worst_ratio).toBeCloseTo(worst.worst_ratio, 12);
 	});
 });
+
+describe('seasoning after a wet clean', () => {
+	it('scores the seasoning wafers, holds their alarms and keeps them out of the rollup worst ratio', async () => {
+		const ch = fab.chamberIds[1];
+		const cleanAt = T0 + 10 * DAY;
+		await logMaintenance({ chamberId: ch, kind: 'wet_clean', at: cleanAt, userId: engineer, comment: 'test clean' });
+		for (const a of await env.k('alarms').where({ chamber_id: ch }).whereNot('state', 'closed')) await closeAlarm(env.k, { alarmId: a.id, userId: engineer, comment: 'reset' });
+		// 35 wafers in one hour after the clean; the 3rd (inside the 30-wafer window) is far off, the 33rd too.
+		const rows = latentRows(35, 12, 40).map((r, i) => {
+			if (i === 2 || i === 32) r[5] += 8;
+			return r;
+		});
+		const ws = await insertWaferSteps(env.k, { chamberId: ch, recipeStepId: fab.recipeStepId, rows, start: cleanAt + 60_000, everyMs: 60_000, prefix: 'seas' });
+		const r = await env.k.transaction((trx) => scoreWaferSteps(trx, asNew(ws, ch)));
+		expect(r.scored).toBe(35);
+		const flagged = await env.k('scores').whereIn('wafer_step_id', ws.map((w) => w.id)).where('seasoning', true).count({ n: '*' }).first();
+		expect(Number(flagged!.n)).toBe(30);
+		const hour = Math.floor((cleanAt + 60_000) / 3_600_000) * 3_600_000;
+		const rollups = await env.k('hourly_rollups').where({ chamber_id: ch, recipe_step_id: fab.recipeStepId }).andWhere('hour_at', '>=', hour).orderBy('hour_at');
+		expect(rollups.reduce((s, x) => s + x.wafer_count, 0)).toBe(35);
+		expect(rollups.reduce((s, x) => s + x.seasoning_wafer_count, 0)).toBe(30);
+		// The worst ratio of the rollups is the worst of the 5 judged wafers, not of the seasoning one.
+		const judged = await env.k('scores').whereIn('wafer_step_id', ws.slice(30).map((w) => w.id)).max({ m: 'worst_ratio' }).first();
+		const seasoningWorst = await env.k('scores').where({ wafer_step_id: ws[2].id }).first('worst_ratio');
+		expect(Math.max(...rollups.map((x) => x.worst_ratio ?? -Infinity))).toBeCloseTo(judged!.m, 12);
+		expect(seasoningWorst.worst_ratio).toBeGreaterThan(judged!.m);
+		// Only the judged outlier opened the single-wafer alarm.
+		const single = await env.k('alarms').where({ chamber_id: ch, rule: 'single' }).whereNot('state', 'closed');
+		expect(single).toHaveLength(1);
+		expect(single[0].first_wafer_step_id).toBe(ws[32].id);
+	});
+});

@@ -39,6 +39,8 @@ export interface ScoredPoint {
 	t2Ratio: number;
 	qRatio: number;
 	worstRatio: number;
+	/** within the seasoning window after a wet clean (rules hold their alarms; rollups count it apart) */
+	seasoning?: boolean;
 }
 
 export interface BaselineLimits {

@@ -83,7 +83,16 @@ async function scoreGroup(
 	const points: ScoredPoint[] = rows.map((r, i) => {
 		const t2Ratio = s.t2[i] / model.limits.t2;
 		const qRatio = s.q[i] / model.limits.q;
-		return { waferStepId: r.id, processedAt: r.processedAt, t2: s.t2[i], q: s.q[i], t2Ratio, qRatio, worstRatio: Math.max(t2Ratio, qRatio) };
+		return {
+			waferStepId: r.id,
+			processedAt: r.processedAt,
+			t2: s.t2[i],
+			q: s.q[i],
+			t2Ratio,
+			qRatio,
+			worstRatio: Math.max(t2Ratio, qRatio),
+			seasoning: seasoning.has(r.id)
+		};
 	});
 	const scoreRows = points.map((p, i) => ({
 		wafer_step_id: p.waferStepId,
@@ -99,7 +108,7 @@ async function scoreGroup(
 		q_ratio: p.qRatio,
 		phi_ratio: s.phi[i] / model.limits.phi,
 		worst_ratio: p.worstRatio,
-		seasoning: seasoning.has(p.waferStepId),
+		seasoning: p.seasoning ?? false,
 		scored_at: t
 	}));
 	// History under this baseline, before these wafers, for the run and EWMA rules.
@@ -167,7 +176,7 @@ async function updateRollups(trx: Knex.Transaction | Knex, chamberId: number, re
 		else byHour.set(h, [p]);
 	}
 	const hours = [...byHour.keys()];
-	const existing = new Map<number, { wafer_count: number; worst_ratio: number | null; worst_t2_ratio: number | null; worst_q_ratio: number | null; worst_wafer_step_id: number | null; alarm_wafer_count: number }>();
+	const existing = new Map<number, { wafer_count: number; worst_ratio: number | null; worst_t2_ratio: number | null; worst_q_ratio: number | null; worst_wafer_step_id: number | null; alarm_wafer_count: number; seasoning_wafer_count: number }>();
 	for (let i = 0; i < hours.length; i += 500) {
 		const rows = await trx('hourly_rollups')
 			.where({ chamber_id: chamberId, recipe_step_id: recipeStepId })
@@ -182,7 +191,13 @@ async function updateRollups(trx: Knex.Transaction | Knex, chamberId: number, re
 		let t2w = e?.worst_t2_ratio ?? -Infinity;
 		let qw = e?.worst_q_ratio ?? -Infinity;
 		let alarmCount = e?.alarm_wafer_count ?? 0;
+		let seasoningCount = e?.seasoning_wafer_count ?? 0;
 		for (const p of pts) {
+			// Seasoning wafers are counted, not judged: they stay out of the worst ratios (alarms held).
+			if (p.seasoning) {
+				seasoningCount++;
+				continue;
+			}
 			if (p.worstRatio > worst) {
 				worst = p.worstRatio;
 				worstId = p.waferStepId;
@@ -196,11 +211,12 @@ async function updateRollups(trx: Knex.Transaction | Knex, chamberId: number, re
 			recipe_step_id: recipeStepId,
 			hour_at: h,
 			wafer_count: (e?.wafer_count ?? 0) + pts.length,
-			worst_ratio: worst,
-			worst_t2_ratio: t2w,
-			worst_q_ratio: qw,
+			worst_ratio: Number.isFinite(worst) ? worst : null,
+			worst_t2_ratio: Number.isFinite(t2w) ? t2w : null,
+			worst_q_ratio: Number.isFinite(qw) ? qw : null,
 			worst_wafer_step_id: worstId,
-			alarm_wafer_count: alarmCount
+			alarm_wafer_count: alarmCount,
+			seasoning_wafer_count: seasoningCount
 		};
 	});
 	for (let i = 0; i < upserts.length; i += 100)
@@ -254,11 +270,11 @@ async function rebuildRollups(trx: Knex.Transaction | Knex, chamberId: number, r
 			.where({ chamber_id: chamberId, recipe_step_id: recipeStepId, current: true })
 			.andWhere('processed_at', '>=', from)
 			.andWhere('processed_at', '<', to)
-			.select('wafer_step_id', 'processed_at', 't2', 'q', 't2_ratio', 'q_ratio', 'worst_ratio');
+			.select('wafer_step_id', 'processed_at', 't2', 'q', 't2_ratio', 'q_ratio', 'worst_ratio', 'seasoning');
 		const set = new Set(chunk);
 		const pts = current
 			.filter((c) => set.has(Math.floor(Number(c.processed_at) / HOUR) * HOUR))
-			.map((c) => ({ waferStepId: c.wafer_step_id, processedAt: Number(c.processed_at), t2: c.t2, q: c.q, t2Ratio: c.t2_ratio, qRatio: c.q_ratio, worstRatio: c.worst_ratio }));
+			.map((c) => ({ waferStepId: c.wafer_step_id, processedAt: Number(c.processed_at), t2: c.t2, q: c.q, t2Ratio: c.t2_ratio, qRatio: c.q_ratio, worstRatio: c.worst_ratio, seasoning: Boolean(c.seasoning) }));
 		await updateRollups(trx, chamberId, recipeStepId, pts);
 	}
 }

@@ -74,6 +74,8 @@ export interface HeatCell {
 	worstWafer: string | null;
 	/** wafer-steps beyond a limit */
 	beyond: number;
+	/** wafer-steps in the seasoning window after a wet clean: counted in n, kept out of r (alarms held) */
+	seasoning: number;
 	/** live (open) alarms of the chamber whose span touches the bucket */
 	alarms: number;
 }
@@ -215,7 +217,7 @@ export async function getHeatmap(q: HeatmapQuery, ctx: { now: number; timeZone: 
 		const start = plan.starts[cell.b];
 		const stop = start + plan.bucketMs;
 		const touching = alarms.filter((a) => a.chamberId === cell.chamberId && a.openedAt < stop && a.lastSeenAt >= start).length;
-		row.cells[cell.b] = { n: cell.n, r: cell.r, t2: cell.t2, q: cell.q, worst: cell.worst, worstWafer: cell.worst === null ? null : (names.get(cell.worst) ?? null), beyond: cell.beyond, alarms: touching };
+		row.cells[cell.b] = { n: cell.n, r: cell.r, t2: cell.t2, q: cell.q, worst: cell.worst, worstWafer: cell.worst === null ? null : (names.get(cell.worst) ?? null), beyond: cell.beyond, seasoning: cell.seasoning, alarms: touching };
 	}
 
 	const groups: HeatmapView['groups'] = [];
@@ -289,6 +291,7 @@ interface BucketRow {
 	q: number | null;
 	worst: number | null;
 	beyond: number;
+	seasoning: number;
 }
 
 /**
@@ -322,14 +325,14 @@ async function bucketCells(
 	const b = `(hour_at - ${a.from}) / ${a.bucketMs}`;
 	const sql =
 		k.client.config.client === 'pg'
-			? `SELECT DISTINCT ON (chamber_id, b) chamber_id, b, n, r, t2, q, worst, beyond FROM (
+			? `SELECT DISTINCT ON (chamber_id, b) chamber_id, b, n, r, t2, q, worst, beyond, seasoning FROM (
 					SELECT chamber_id, ${b} AS b, worst_ratio AS r, worst_t2_ratio AS t2, worst_q_ratio AS q, worst_wafer_step_id AS worst,
-						SUM(wafer_count) OVER w AS n, SUM(alarm_wafer_count) OVER w AS beyond
+						SUM(wafer_count) OVER w AS n, SUM(alarm_wafer_count) OVER w AS beyond, SUM(seasoning_wafer_count) OVER w AS seasoning
 					FROM hourly_rollups WHERE ${where.join(' AND ')}
 					WINDOW w AS (PARTITION BY chamber_id, ${b})
 				) x ORDER BY chamber_id, b, r DESC NULLS LAST`
 			: `SELECT chamber_id, ${b} AS b, SUM(wafer_count) AS n, MAX(worst_ratio) AS r, worst_t2_ratio AS t2, worst_q_ratio AS q,
-					worst_wafer_step_id AS worst, SUM(alarm_wafer_count) AS beyond
+					worst_wafer_step_id AS worst, SUM(alarm_wafer_count) AS beyond, SUM(seasoning_wafer_count) AS seasoning
 				FROM hourly_rollups WHERE ${where.join(' AND ')} GROUP BY chamber_id, b`;
 	const res = await k.raw(sql, binds);
 	// better-sqlite3 returns the rows; pg returns { rows }.
@@ -343,7 +346,8 @@ async function bucketCells(
 		t2: num(r.t2),
 		q: num(r.q),
 		worst: num(r.worst),
-		beyond: Number(r.beyond ?? 0)
+		beyond: Number(r.beyond ?? 0),
+		seasoning: Number(r.seasoning ?? 0)
 	}));
 }
 
