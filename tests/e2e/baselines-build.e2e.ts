@@ -7,19 +7,9 @@ import { afterAll, beforeAll, describe, expect, inject, it } from 'vitest';
 import { openDb } from '../../src/lib/server/db.ts';
 import { goldenCandidates } from '../../src/lib/server/baselines.ts';
 import type { Browser } from 'playwright-core';
-import { launch, screenshot } from './browser.ts';
+import { launch, screenshot, signInTo } from './browser.ts';
 import { base, request, signIn } from './http.ts';
 import { TEST_PASSWORD, TEST_USERS } from './global-setup.ts';
-
-/** Sign in through the form, asking for `path` so the landing page is not loaded first. */
-async function signInTo(page: import('playwright-core').Page, who: keyof typeof TEST_USERS, path: string) {
-	await page.goto(`${base()}/sign-in?next=${encodeURIComponent(path)}`);
-	await page.getByLabel('User name').fill(TEST_USERS[who]);
-	await page.getByLabel('Password').fill(TEST_PASSWORD);
-	await page.getByRole('button', { name: 'Sign in' }).click();
-	await page.waitForURL((u) => u.pathname === path.split('?')[0]);
-	if (!page.url().endsWith(path)) await page.goto(`${base()}${path}`);
-}
 
 /** The chamber × step (not in requalify) with the most fair golden candidates since `from`. */
 async function fairestPair(from: number): Promise<{ code: string; stepId: number } | null> {

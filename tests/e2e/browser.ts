@@ -2,6 +2,8 @@
 import fs from 'node:fs';
 import path from 'node:path';
 import { chromium, type Browser, type Page } from 'playwright-core';
+import { TEST_PASSWORD, TEST_USERS } from './global-setup.ts';
+import { base } from './http.ts';
 
 export const SCREEN_DIR = path.resolve('test-results/screens');
 
@@ -34,4 +36,14 @@ export async function signInPage(page: Page, base: string, username: string, pas
 	await page.getByLabel('User name').fill(username);
 	await page.getByLabel('Password').fill(password);
 	await page.getByRole('button', { name: 'Sign in' }).click();
+}
+
+/** Sign in through the form as a test user, asking for `path` so the landing page is not loaded first. */
+export async function signInTo(page: Page, who: keyof typeof TEST_USERS, path: string) {
+	await page.goto(`${base()}/sign-in?next=${encodeURIComponent(path)}`);
+	await page.getByLabel('User name').fill(TEST_USERS[who]);
+	await page.getByLabel('Password').fill(TEST_PASSWORD);
+	await page.getByRole('button', { name: 'Sign in' }).click();
+	await page.waitForURL((u) => u.pathname === path.split('?')[0]);
+	if (!page.url().endsWith(path)) await page.goto(`${base()}${path}`);
 }
