@@ -40,11 +40,13 @@ describe('etch-1999 fixtures', () => {
 		expect(await count(env.k, 'wafer_steps')).toBe(234);
 		const steps = await env.k('recipe_steps').orderBy('name').pluck('name');
 		expect(steps).toEqual(['step4', 'step5']);
-		const feats = await env.k('features').where({ recipe_step_id: 1 }).orderBy('position');
+		// (the engineer's refused attempt above left no step behind, so ids are not assumed)
+		const step4 = await env.k('recipe_steps').where({ name: 'step4' }).first('id');
+		const feats = await env.k('features').where({ recipe_step_id: step4.id }).orderBy('position');
 		expect(feats).toHaveLength(19); // sensors only: no OES channel, so no derived ratio
 		expect(feats[0]).toMatchObject({ name: 'bcl3_flow_sccm', kind: 'sensor', unit: 'sccm' });
 		// First data row of normal.csv: l2901 step4, bcl3_flow_sccm 751.528, throttle_valve_pos 48.9811.
-		const ws = await env.k('wafer_steps').where({ wafer_id: 'l2901', recipe_step_id: 1 }).first();
+		const ws = await env.k('wafer_steps').where({ wafer_id: 'l2901', recipe_step_id: step4.id }).first();
 		const v = decodeValues(ws.feature_values);
 		expect(v[0]).toBe(751.528);
 		expect(v[18]).toBe(48.9811);

@@ -32,6 +32,8 @@ export interface StepPlan {
 	refusal: string | null;
 	/** with a refusal: the file's columns that the step's set lacks, and the set's columns the file lacks */
 	mismatch: { added: string[]; missing: string[] } | null;
+	/** set when this file created the step (and perhaps its recipe): undone if none of its rows is stored */
+	createdHere?: { recipeId: number; recipeCode: string; recipeCreated: boolean; label: string };
 }
 
 export interface Created {
@@ -96,10 +98,12 @@ export async function resolveStepPlan(
 	created: Created
 ): Promise<StepPlan> {
 	let recipe = await trx('recipes').where({ code: recipeCode }).first('id');
+	let recipeCreated = false;
 	if (!recipe) {
 		const [r] = await trx('recipes').insert({ code: recipeCode, name: recipeCode }).returning('id');
 		recipe = { id: id(r) };
 		created.recipes.push(recipeCode);
+		recipeCreated = true;
 	}
 	const step = await trx('recipe_steps').where({ recipe_id: recipe.id, name: stepName }).first('id', 'feature_set_version');
 	const derived = derivedFor(header.features);
@@ -119,7 +123,8 @@ export async function resolveStepPlan(
 			length: F + derived.length,
 			derived: derived.map((d, i) => ({ ...d, position: F + i })),
 			refusal: null,
-			mismatch: null
+			mismatch: null,
+			createdHere: { recipeId: recipe.id, recipeCode, recipeCreated, label: `${recipeCode} / ${stepName}` }
 		};
 	}
 	const catalog: Array<{ position: number; name: string; kind: string }> = await trx('features')

@@ -51,6 +51,8 @@ export interface WriterStats {
 
 export class FileWriter {
 	header: Header | null = null;
+	/** recipe steps that received at least one stored wafer-step from this file */
+	private readonly storedSteps = new Set<number>();
 	readonly stats: WriterStats = {
 		rows: { total: 0, accepted: 0, rejected: 0, duplicate: 0 },
 		waferSteps: { scored: 0, noBaseline: 0 },
@@ -288,6 +290,7 @@ export class FileWriter {
 				.returning(['id', 'wafer_id', 'recipe_step_id']);
 			inserted.push(...part);
 		}
+		for (const r of inserted) this.storedSteps.add(Number(r.recipe_step_id));
 		const idOf = new Map(inserted.map((r) => [`${r.wafer_id}\u0000${r.recipe_step_id}`, Number(r.id)]));
 		const fresh: NewWaferStep[] = [];
 		const dups: Pending[] = [];
@@ -345,6 +348,28 @@ export class FileWriter {
 				missing: plan.mismatch?.missing ?? [],
 				rows
 			});
+		await this.undoUnusedCatalogs();
 		return this.stats;
+	}
+
+	/**
+	 * A recipe step this file created but stored no row for (every row refused) is removed again, with
+	 * its catalog, and its recipe when the file created that too: a refused file leaves nothing behind.
+	 */
+	private async undoUnusedCatalogs(): Promise<void> {
+		for (const plan of this.plans.values()) {
+			const made = plan?.createdHere;
+			if (!plan || !made || this.storedSteps.has(plan.recipeStepId)) continue;
+			await this.trx('features').where({ recipe_step_id: plan.recipeStepId }).delete();
+			await this.trx('recipe_steps').where({ id: plan.recipeStepId }).delete();
+			this.stats.created.recipeSteps = this.stats.created.recipeSteps.filter((l) => l !== made.label);
+			if (made.recipeCreated) {
+				const left = await this.trx('recipe_steps').where({ recipe_id: made.recipeId }).first('id');
+				if (!left) {
+					await this.trx('recipes').where({ id: made.recipeId }).delete();
+					this.stats.created.recipes = this.stats.created.recipes.filter((c) => c !== made.recipeCode);
+				}
+			}
+		}
 	}
 }
