@@ -119,13 +119,16 @@ function gram(Z: Float64Array, n: number, p: number): Decomposition {
 	const V = evd.eigenvectorMatrix;
 	return {
 		eigenvalues: Float64Array.from(sorted.slice(0, r), (m) => m / (n - 1)),
-		loadings: (k) => {
-			const P = new Float64Array(p * k);
-			for (let j = 0; j < p; j++) for (let a = 0; a < k; a++) P[j * k + a] = V.get(j, order[a]);
-			fixSigns(P, p, k);
-			return P;
-		}
+		loadings: (k) => columnsAsLoadings(V, order, p, k)
 	};
+}
+
+/** The first k columns of V (in `order`) as flat p × k loadings, signs fixed. */
+function columnsAsLoadings(V: { get(i: number, j: number): number }, order: readonly number[], p: number, k: number): Float64Array {
+	const P = new Float64Array(p * k);
+	for (let j = 0; j < p; j++) for (let a = 0; a < k; a++) P[j * k + a] = V.get(j, order[a]);
+	fixSigns(P, p, k);
+	return P;
 }
 
 function svd(Z: Float64Array, n: number, p: number): Decomposition {
@@ -155,12 +158,7 @@ function svd(Z: Float64Array, n: number, p: number): Decomposition {
 	const V = dec.rightSingularVectors;
 	return {
 		eigenvalues: Float64Array.from(sq.slice(0, r), (m) => m / (n - 1)),
-		loadings: (k) => {
-			const P = new Float64Array(p * k);
-			for (let j = 0; j < p; j++) for (let a = 0; a < k; a++) P[j * k + a] = V.get(j, order[a]);
-			fixSigns(P, p, k);
-			return P;
-		}
+		loadings: (k) => columnsAsLoadings(V, order, p, k)
 	};
 }
 

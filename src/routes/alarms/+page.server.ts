@@ -1,7 +1,6 @@
-import { fail } from '@sveltejs/kit';
 import { hasRole } from '$lib/server/roles';
 import { now } from '$lib/server/time';
-import { submitAcknowledge, submitClose } from '$lib/server/views/alarm-forms';
+import { acknowledgeAction, closeAction } from '$lib/server/views/alarm-forms';
 import { AGE_FILTERS, STATE_FILTERS, causePareto, listQueue, parseQueueFilters, queueOptions, timeToAcknowledge } from '$lib/server/views/alarm-queue';
 import { DISPOSITIONS } from '$lib/server/alarms';
 import type { Actions, PageServerLoad } from './$types';
@@ -37,14 +36,6 @@ export const load: PageServerLoad = async ({ url, locals }) => {
 };
 
 export const actions: Actions = {
-	acknowledge: async ({ request, locals }) => {
-		const r = await submitAcknowledge(await request.formData(), locals.user!.id);
-		if (!r.ok) return fail(400, { action: 'acknowledge', errors: r.errors, values: r.values });
-		return { action: 'acknowledge', message: r.message, ids: r.ids };
-	},
-	close: async ({ request, locals }) => {
-		const r = await submitClose(await request.formData(), locals.user!.id);
-		if (!r.ok) return fail(400, { action: 'close', errors: r.errors, values: r.values });
-		return { action: 'close', message: r.message, ids: r.ids };
-	}
+	acknowledge: acknowledgeAction,
+	close: closeAction
 };

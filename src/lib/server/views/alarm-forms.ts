@@ -4,6 +4,7 @@
  * server functions run in one transaction.
  */
 import { acknowledgeAlarms, AlarmError, closeAlarm } from '../alarms.ts';
+import { fail } from '@sveltejs/kit';
 import { db } from '../db.ts';
 
 export type FormOutcome =
@@ -52,4 +53,22 @@ export async function submitClose(form: FormData, userId: string): Promise<FormO
 		if (e instanceof AlarmError) return { ok: false, errors: { [e.field ?? 'form']: e.message }, values };
 		throw e;
 	}
+}
+
+type ActionEvent = { request: Request; locals: App.Locals };
+
+/**
+ * The acknowledge and close form actions, shared by the alarm queue, the alarm page and the wafer
+ * page (each route lists them in the route policy; the role is checked there).
+ */
+export async function acknowledgeAction({ request, locals }: ActionEvent) {
+	const r = await submitAcknowledge(await request.formData(), locals.user!.id);
+	if (!r.ok) return fail(400, { action: 'acknowledge' as const, errors: r.errors, values: r.values });
+	return { action: 'acknowledge' as const, message: r.message, ids: r.ids };
+}
+
+export async function closeAction({ request, locals }: ActionEvent) {
+	const r = await submitClose(await request.formData(), locals.user!.id);
+	if (!r.ok) return fail(400, { action: 'close' as const, errors: r.errors, values: r.values });
+	return { action: 'close' as const, message: r.message, ids: r.ids };
 }

@@ -10,6 +10,7 @@ import { listChambers, type ChamberInfo } from '../fleet-structure.ts';
 import { listMaintenance, MAINTENANCE_KINDS, rfHoursSinceWetClean } from '../maintenance.ts';
 import { getSetting } from '../settings.ts';
 import { listRecipeSteps } from './recipe-steps.ts';
+import { INSTANT_MESSAGE, parseInstant } from './query-params.ts';
 
 export interface ChamberStep {
 	id: number;
@@ -253,16 +254,11 @@ export function parseChamberRange(
 	latestDataAt: number | null,
 	now: number
 ): { ok: true; from: number; to: number; focus: { at: number; until: number } | null } | { ok: false; param: string; error: string } {
-	const read = (name: string): number | null | 'bad' => {
-		const s = sp.get(name);
-		if (s === null || s === '') return null;
-		const t = /^\d+$/.test(s) ? Number(s) : Date.parse(s);
-		return Number.isFinite(t) ? t : 'bad';
-	};
+	const read = (name: string) => parseInstant(sp.get(name));
 	const vals: Record<string, number | null> = {};
 	for (const name of ['from', 'to', 'at', 'until']) {
 		const v = read(name);
-		if (v === 'bad') return { ok: false, param: name, error: `${name}: must be an ISO 8601 time or epoch milliseconds` };
+		if (v === 'bad') return { ok: false, param: name, error: `${name}: ${INSTANT_MESSAGE}` };
 		vals[name] = v;
 	}
 	const to = vals.to ?? Math.min(now, latestDataAt ?? now) + 60_000;

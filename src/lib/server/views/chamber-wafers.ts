@@ -6,23 +6,13 @@ import type { Knex } from 'knex';
 import Papa from 'papaparse';
 import { z } from 'zod';
 import { db } from '../db.ts';
+import { optionalInstant } from './query-params.ts';
 
 export const WAFER_SORTS = ['processed_at', 'wafer_id', 'lot_id', 'slot', 't2_ratio', 'q_ratio', 'phi_ratio', 'worst_ratio'] as const;
 export type WaferSort = (typeof WAFER_SORTS)[number];
 export const WAFER_STATES = ['all', 'beyond', 'warning', 'in_control', 'unscored', 'golden'] as const;
 
-const time = z
-	.string()
-	.optional()
-	.transform((s, ctx) => {
-		if (s === undefined || s === '') return null;
-		const t = /^\d+$/.test(s) ? Number(s) : Date.parse(s);
-		if (!Number.isFinite(t)) {
-			ctx.addIssue({ code: 'custom', message: 'must be an ISO 8601 time or epoch milliseconds' });
-			return z.NEVER;
-		}
-		return t;
-	});
+const time = optionalInstant;
 
 const Params = z.object({
 	step: z.string().max(140).optional(),

@@ -8,6 +8,7 @@ import type { Knex } from 'knex';
 import { z } from 'zod';
 import { RULE_LABELS, type AlarmRule } from '../alarms.ts';
 import { db } from '../db.ts';
+import { optionalInstant } from './query-params.ts';
 import { listChambers } from '../fleet-structure.ts';
 import { HEAT_WINDOWS, HOUR_MS, isHeatWindow, planBuckets, type HeatWindow } from './time-buckets.ts';
 import { listRecipeSteps, type RecipeStepInfo } from './recipe-steps.ts';
@@ -26,18 +27,7 @@ export interface HeatmapQuery {
 const Params = z.object({
 	window: z.string().default('24h').refine(isHeatWindow, { message: `must be one of ${Object.keys(HEAT_WINDOWS).join(', ')}` }),
 	anchor: z.enum(['auto', 'now', 'latest']).default('auto'),
-	end: z
-		.string()
-		.optional()
-		.transform((s, ctx) => {
-			if (s === undefined || s === '') return null;
-			const t = /^\d+$/.test(s) ? Number(s) : Date.parse(s);
-			if (!Number.isFinite(t)) {
-				ctx.addIssue({ code: 'custom', message: 'must be an ISO 8601 time or epoch milliseconds' });
-				return z.NEVER;
-			}
-			return t;
-		}),
+	end: optionalInstant,
 	area: z.string().max(32).optional(),
 	recipe: z.string().max(64).optional(),
 	step: z.string().max(64).optional()

@@ -1,7 +1,7 @@
-import { error, fail } from '@sveltejs/kit';
+import { error } from '@sveltejs/kit';
 import { DISPOSITIONS } from '$lib/server/alarms';
 import { hasRole } from '$lib/server/roles';
-import { submitAcknowledge, submitClose } from '$lib/server/views/alarm-forms';
+import { acknowledgeAction, closeAction } from '$lib/server/views/alarm-forms';
 import { getAlarm, queueOptions } from '$lib/server/views/alarm-queue';
 import type { Actions, PageServerLoad } from './$types';
 
@@ -14,14 +14,6 @@ export const load: PageServerLoad = async ({ params, locals }) => {
 };
 
 export const actions: Actions = {
-	acknowledge: async ({ request, locals }) => {
-		const r = await submitAcknowledge(await request.formData(), locals.user!.id);
-		if (!r.ok) return fail(400, { action: 'acknowledge', errors: r.errors, values: r.values });
-		return { action: 'acknowledge', message: r.message, ids: r.ids };
-	},
-	close: async ({ request, locals }) => {
-		const r = await submitClose(await request.formData(), locals.user!.id);
-		if (!r.ok) return fail(400, { action: 'close', errors: r.errors, values: r.values });
-		return { action: 'close', message: r.message, ids: r.ids };
-	}
+	acknowledge: acknowledgeAction,
+	close: closeAction
 };

@@ -1,8 +1,8 @@
-import { error, fail } from '@sveltejs/kit';
+import { error } from '@sveltejs/kit';
 import { DISPOSITIONS } from '$lib/server/alarms';
 import { listCauseCodes } from '$lib/server/cause-codes';
 import { hasRole } from '$lib/server/roles';
-import { submitAcknowledge } from '$lib/server/views/alarm-forms';
+import { acknowledgeAction } from '$lib/server/views/alarm-forms';
 import { getWaferView } from '$lib/server/views/wafer-view';
 import type { Actions, PageServerLoad } from './$types';
 
@@ -22,9 +22,5 @@ export const load: PageServerLoad = async ({ params, url, locals }) => {
 
 export const actions: Actions = {
 	/** Acknowledge the live alarms this wafer belongs to, from the wafer page (same rules as the queue). */
-	acknowledge: async ({ request, locals }) => {
-		const r = await submitAcknowledge(await request.formData(), locals.user!.id);
-		if (!r.ok) return fail(400, { action: 'acknowledge', errors: r.errors, values: r.values });
-		return { action: 'acknowledge', message: r.message, ids: r.ids };
-	}
+	acknowledge: acknowledgeAction
 };

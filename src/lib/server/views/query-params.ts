@@ -1,0 +1,24 @@
+/** Query-string values shared by the JSON APIs of the fleet and chamber screens. */
+import { z } from 'zod';
+
+export const INSTANT_MESSAGE = 'must be an ISO 8601 time or epoch milliseconds';
+
+/** An instant given as epoch milliseconds or ISO 8601; null when absent or empty, 'bad' otherwise. */
+export function parseInstant(s: string | null | undefined): number | null | 'bad' {
+	if (s === undefined || s === null || s === '') return null;
+	const t = /^\d+$/.test(s) ? Number(s) : Date.parse(s);
+	return Number.isFinite(t) ? t : 'bad';
+}
+
+/** The same as a zod field: optional, null when empty, a located issue when unreadable. */
+export const optionalInstant = z
+	.string()
+	.optional()
+	.transform((s, ctx) => {
+		const t = parseInstant(s);
+		if (t === 'bad') {
+			ctx.addIssue({ code: 'custom', message: INSTANT_MESSAGE });
+			return z.NEVER;
+		}
+		return t;
+	});
