@@ -13,6 +13,7 @@ import Database from 'better-sqlite3';
 import { afterAll, beforeAll, describe, expect, inject, it } from 'vitest';
 import { TEST_PASSWORD, TEST_USERS } from './global-setup.ts';
 import { signIn, startServer, type RunningServer } from '../load/server.ts';
+import { crashRounds } from '../helpers/crash.ts';
 
 const ROUNDS = 3;
 const POSTS = 40;
@@ -82,37 +83,37 @@ describe('web server killed mid-acknowledgement', () => {
 	it(`leaves no half-written audit entry (${ROUNDS} kills, ${POSTS} POSTs of ${PER_POST} alarms in flight each)`, async () => {
 		const answeredOk: number[][] = [];
 		const batches: number[][] = [];
-		for (let round = 0; round < ROUNDS; round++) {
-			server = await startServer(dir);
-			const cookie = await signIn(server.base, TEST_USERS.engineer, TEST_PASSWORD);
-			let answered = 0;
-			const killAfter = 3 + round * 4; // kill after a few answers: most POSTs are still in flight
-			const killing = new Promise<void>((resolve) => {
-				const tick = setInterval(() => {
-					if (answered >= killAfter) {
-						clearInterval(tick);
-						void server!.kill().then(resolve);
-					}
-				}, 1);
-			});
-			const posts = Array.from({ length: POSTS }, (_, p) => {
-				const ids = probeIds.slice((round * POSTS + p) * PER_POST, (round * POSTS + p + 1) * PER_POST);
-				batches.push(ids);
-				return acknowledge(server!.base, cookie, ids)
-					.then(async (r) => {
-						const j = (await r.json()) as { type?: string };
-						answered++;
-						if (r.status === 200 && j.type === 'success') answeredOk.push(ids);
-					})
-					.catch(() => {
-						answered++; // connection reset by the kill
-					});
-			});
-			await Promise.all(posts);
-			await killing;
-			expect((await server.exited).signal).toBe('SIGKILL');
-			server = null;
-		}
+		let answered = 0;
+		await crashRounds({
+			rounds: ROUNDS,
+			start: async () => {
+				answered = 0;
+				return (server = await startServer(dir));
+			},
+			drive: async (s, round) => {
+				const cookie = await signIn(s.base, TEST_USERS.engineer, TEST_PASSWORD);
+				const posts = Array.from({ length: POSTS }, (_, p) => {
+					const ids = probeIds.slice((round * POSTS + p) * PER_POST, (round * POSTS + p + 1) * PER_POST);
+					batches.push(ids);
+					return acknowledge(s.base, cookie, ids)
+						.then(async (r) => {
+							const j = (await r.json()) as { type?: string };
+							answered++;
+							if (r.status === 200 && j.type === 'success') answeredOk.push(ids);
+						})
+						.catch(() => {
+							answered++; // connection reset by the kill
+						});
+				});
+				await Promise.all(posts);
+			},
+			killWhen: (_, round) => answered >= 3 + round * 4, // kill after a few answers: most POSTs are still in flight
+			pollMs: 1,
+			check: ({ exit }) => {
+				expect(exit.signal).toBe('SIGKILL');
+				server = null;
+			}
+		});
 		// Restart once more: the server comes back healthy and acknowledging still works.
 		server = await startServer(dir);
 		expect((await fetch(`${server.base}/api/health`)).status).toBe(200);

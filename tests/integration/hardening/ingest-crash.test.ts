@@ -8,7 +8,6 @@
  * CI kills 5 times; the full run kills 20 times: LOCKSTEP_CRASH_KILLS=20 npx vitest run tests/integration/hardening.
  * LOCKSTEP_CRASH_SEED reproduces a run's kill points (the seed is printed).
  */
-import { spawn } from 'node:child_process';
 import fs from 'node:fs';
 import os from 'node:os';
 import path from 'node:path';
@@ -20,6 +19,7 @@ import { ingestFile } from '../../../src/lib/server/ingest/index.ts';
 import { approveBaseline, createDraftBaseline } from '../../../src/lib/server/baselines.ts';
 import { createUser } from '../../../src/lib/server/users.ts';
 import { addChambers } from '../ingest/helpers.ts';
+import { crashRounds, spawnTsx } from '../../helpers/crash.ts';
 
 const KILLS = Math.max(1, Math.min(50, Number(process.env.LOCKSTEP_CRASH_KILLS ?? 5)));
 const SEED = Number(process.env.LOCKSTEP_CRASH_SEED ?? Date.now() % 1_000_000);
@@ -49,13 +49,20 @@ function lines(prefix: string, n: number, startMs: number, stepMs: number, seed:
 
 let dir: string;
 let dbFile: string;
-const open = () => openDb({ client: 'better-sqlite3', filename: dbFile, connectionString: null });
+/** Run `fn` on a connection of its own to the worker's database (the worker holds none between runs). */
+async function withDb<T>(fn: (k: Knex) => Promise<T>): Promise<T> {
+	const k = openDb({ client: 'better-sqlite3', filename: dbFile, connectionString: null });
+	try {
+		return await fn(k);
+	} finally {
+		await k.destroy();
+	}
+}
 
 beforeAll(async () => {
 	dir = fs.mkdtempSync(path.join(os.tmpdir(), 'lockstep-crash20-'));
 	dbFile = path.join(dir, 'lockstep.sqlite');
-	const k = open();
-	try {
+	await withDb(async (k) => {
 		await migrateLatest(k);
 		await addChambers(k, ['PM1', 'PM2']);
 		// Golden wafers and an active baseline per chamber × step, so the big files are scored and rolled up.
@@ -69,9 +76,7 @@ beforeAll(async () => {
 			const d = await createDraftBaseline({ chamberId: grp.chamber_id, recipeStepId: grp.recipe_step_id, waferStepIds: ids, components: 3, builtBy: user.id }, k);
 			await approveBaseline(d.id, user.id, k);
 		}
-	} finally {
-		await k.destroy();
-	}
+	});
 	const inbox = path.join(dir, 'inbox');
 	fs.mkdirSync(inbox);
 	FILES.forEach((name, f) => {
@@ -83,17 +88,7 @@ beforeAll(async () => {
 }, 120_000);
 afterAll(() => fs.rmSync(dir, { recursive: true, force: true }));
 
-function worker() {
-	const child = spawn(process.execPath, ['--import', 'tsx', 'jobs/ingest-inbox.ts', '--progress'], {
-		env: { ...process.env, LOCKSTEP_DATA_DIR: dir, LOCKSTEP_DB_FILE: dbFile, LOCKSTEP_INBOX_SETTLE_MS: '0' },
-		stdio: ['ignore', 'pipe', 'pipe']
-	});
-	let out = '';
-	child.stdout.on('data', (d) => (out += d));
-	child.stderr.on('data', (d) => (out += d));
-	const exited = new Promise<{ code: number | null; signal: NodeJS.Signals | null }>((r) => child.on('exit', (code, signal) => r({ code, signal })));
-	return { child, exited, output: () => out };
-}
+const worker = () => spawnTsx(['jobs/ingest-inbox.ts', '--progress'], { LOCKSTEP_DATA_DIR: dir, LOCKSTEP_DB_FILE: dbFile, LOCKSTEP_INBOX_SETTLE_MS: '0' });
 
 /** Rows the worker has got through in this run, counted across the files in inbox order. */
 function position(output: string): number {
@@ -131,60 +126,39 @@ describe(`inbox worker killed with SIGKILL ${KILLS} times across ${FILES.length}
 		// Kill points spread over the rows of all files (the last 3 % left out so a kill can still land).
 		const points = Array.from({ length: KILLS }, () => Math.floor(rng.getFloat() * TOTAL * 0.97)).sort((a, b) => a - b);
 		console.log(`crash seed ${SEED}: kill points at rows ${points.join(', ')} of ${TOTAL}`);
-		let delivered = 0;
-		for (const point of points) {
-			const w = worker();
-			const jitter = Math.floor(rng.getFloat() * 40);
-			const killed = await new Promise<boolean>((resolve) => {
-				const timer = setInterval(() => {
-					if (position(w.output()) >= point) {
-						clearInterval(timer);
-						// A short random delay so kills land inside chunks, not only at progress lines.
-						setTimeout(() => resolve(w.child.kill('SIGKILL')), jitter);
-					}
-				}, 3);
-				void w.exited.then(() => {
-					clearInterval(timer);
-					resolve(false);
-				});
-			});
-			const end = await w.exited;
-			if (killed && end.signal === 'SIGKILL') delivered++;
-			else expect(end.code, w.output()).toBe(0);
-			// Whatever the moment, the database is never in a half-written state between runs.
-			const k = open();
-			try {
-				const mid = await check(k);
+		const delivered = await crashRounds({
+			rounds: points.length,
+			start: worker,
+			killWhen: (w, round) => position(w.log()) >= points[round],
+			// A short random delay so kills land inside chunks, not only at progress lines.
+			delayMs: () => Math.floor(rng.getFloat() * 40),
+			check: async ({ child, exit, killed }) => {
+				if (!killed) expect(exit.code, child.log()).toBe(0);
+				// Whatever the moment, the database is never in a half-written state between runs.
+				const mid = await withDb(check);
 				expect(mid.distinct).toBe(mid.total);
 				expect(mid.multiScored).toBe(0);
 				expect(mid.total % ROWS_PER_FILE).toBe(0); // whole files only
 				expect(mid.unscored).toBe(0);
 				expect(Object.fromEntries(mid.actual)).toEqual(Object.fromEntries(mid.expected));
-			} finally {
-				await k.destroy();
 			}
-		}
+		});
 		// Most points must really have killed a worker, or the test proved nothing.
 		expect(delivered).toBeGreaterThanOrEqual(Math.ceil(KILLS * 0.6));
 
 		const last = worker();
 		const end = await last.exited;
-		expect(end.code, last.output()).toBe(0);
-		const k = open();
-		try {
-			const after = await check(k);
-			expect(after.total).toBe(TOTAL);
-			expect(after.distinct).toBe(TOTAL);
-			expect(after.unscored).toBe(0);
-			expect(after.multiScored).toBe(0);
-			expect(after.perFile.map((r) => `${r.original_name}:${r.status}:${r.n}`).sort()).toEqual(FILES.map((f) => `${f}:done:1`));
-			expect(after.actual.size).toBeGreaterThan(100);
-			expect(Object.fromEntries(after.actual)).toEqual(Object.fromEntries(after.expected));
-			const sum = (m: Map<string, number>) => [...m.values()].reduce((a, b) => a + b, 0);
-			expect(sum(after.actual)).toBe(sum(after.expected));
-		} finally {
-			await k.destroy();
-		}
+		expect(end.code, last.log()).toBe(0);
+		const after = await withDb(check);
+		expect(after.total).toBe(TOTAL);
+		expect(after.distinct).toBe(TOTAL);
+		expect(after.unscored).toBe(0);
+		expect(after.multiScored).toBe(0);
+		expect(after.perFile.map((r) => `${r.original_name}:${r.status}:${r.n}`).sort()).toEqual(FILES.map((f) => `${f}:done:1`));
+		expect(after.actual.size).toBeGreaterThan(100);
+		expect(Object.fromEntries(after.actual)).toEqual(Object.fromEntries(after.expected));
+		const sum = (m: Map<string, number>) => [...m.values()].reduce((a, b) => a + b, 0);
+		expect(sum(after.actual)).toBe(sum(after.expected));
 		const processed = fs.readdirSync(path.join(dir, 'inbox', 'processed')).sort();
 		expect(processed).toEqual(FILES.flatMap((f) => [f, `${f}.report.json`]).sort());
 		expect(fs.readdirSync(path.join(dir, 'inbox')).filter((f) => f.endsWith('.csv'))).toEqual([]);
