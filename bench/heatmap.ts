@@ -171,7 +171,7 @@ async function timeHttp(dataDir: string, query: string, runs: number): Promise<n
 	if (u.status !== 0) throw new Error(`user-create failed: ${u.stderr}`);
 	const port = await freePort();
 	const base = `http://127.0.0.1:${port}`;
-	const server = spawn(process.execPath, ['build/index.js'], { env: { ...env, HOST: '127.0.0.1', PORT: String(port), ORIGIN: base }, stdio: 'ignore' });
+	const server = spawn(process.execPath, ['scripts/serve.js'], { env: { ...env, LOCKSTEP_ANSWER_CACHE: 'off', HOST: '127.0.0.1', PORT: String(port), ORIGIN: base }, stdio: 'ignore' });
 	try {
 		const deadline = Date.now() + 30_000;
 		for (;;) {

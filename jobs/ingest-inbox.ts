@@ -20,6 +20,7 @@ import type { Knex } from 'knex';
 import { config } from '../src/lib/server/config.ts';
 import { closeDb, db, migrateLatest } from '../src/lib/server/db.ts';
 import { ingestFile, type IngestProgress, type IngestReport } from '../src/lib/server/ingest/index.ts';
+import { yieldToWebServer } from './priority.ts';
 
 export interface InboxOptions {
 	inboxDir?: string;
@@ -147,6 +148,7 @@ export async function runInbox(opts: InboxOptions = {}): Promise<InboxOutcome[]>
 // Alone: process once and exit (used by the crash test and for manual runs).
 if (process.argv[1] && import.meta.url === pathToFileURL(process.argv[1]).href) {
 	const progress = process.argv.includes('--progress');
+	yieldToWebServer();
 	(async () => {
 		await migrateLatest();
 		await runInbox({

@@ -6,6 +6,7 @@
 import cron, { type ScheduledTask } from 'node-cron';
 import { closeDb, migrateLatest } from '../src/lib/server/db.ts';
 import { JOBS } from './registry.ts';
+import { yieldToWebServer } from './priority.ts';
 
 const running = new Map<string, Promise<unknown>>();
 const tasks: ScheduledTask[] = [];
@@ -46,5 +47,6 @@ async function shutdown(signal: string): Promise<void> {
 process.on('SIGTERM', () => void shutdown('SIGTERM'));
 process.on('SIGINT', () => void shutdown('SIGINT'));
 
+yieldToWebServer();
 await migrateLatest();
 start();

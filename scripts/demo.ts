@@ -27,7 +27,7 @@ if (process.env.LOCKSTEP_SKIP_BUILD !== '1' || !fs.existsSync('build/index.js'))
 	step('Building', process.execPath, ['node_modules/vite/bin/vite.js', 'build', '--logLevel', 'warn']);
 
 const children: ChildProcess[] = [];
-children.push(spawn(process.execPath, ['build/index.js'], { stdio: 'inherit', env }));
+children.push(spawn(process.execPath, ['scripts/serve.js'], { stdio: 'inherit', env }));
 if (fs.existsSync('jobs/run.ts')) children.push(spawn(process.execPath, ['--import', 'tsx', 'jobs/run.ts'], { stdio: 'inherit', env }));
 console.log(`\n▸ Lockstep is at ${origin}  (jobs: ${children.length > 1 ? 'running' : 'none'}; Ctrl-C stops)`);
 

@@ -4,7 +4,7 @@ import { luciaFor } from '$lib/server/auth';
 import { decide } from '$lib/server/route-policy';
 import { securityHeaders } from '$lib/server/security-headers';
 import { closeDb } from '$lib/server/db';
-import { clearHeatmapCache } from '$lib/server/views/heatmap-cache';
+import { noteLocalWrite } from '$lib/server/answer-cache';
 import { bearerToken, verifyApiToken } from '$lib/server/api-tokens';
 import { THEME_COOKIE, themeFromCookie, withHtmlTheme } from '$lib/components/ui/theme';
 
@@ -98,11 +98,18 @@ const headers: Handle = async ({ event, resolve }) => {
 	return response;
 };
 
-/** A change made through this server (upload, acknowledgement, approval) shows on the next heatmap poll. */
+/**
+ * A change made through this server (upload, acknowledgement, approval) shows on the next poll: kept
+ * API answers are dropped after every request that may have written (other processes' commits are
+ * seen by the data version itself; see answer-cache.ts). Also noted when the request failed midway.
+ */
 const freshness: Handle = async ({ event, resolve }) => {
-	const response = await resolve(event);
-	if (event.request.method !== 'GET' && event.request.method !== 'HEAD') clearHeatmapCache();
-	return response;
+	if (event.request.method === 'GET' || event.request.method === 'HEAD') return resolve(event);
+	try {
+		return await resolve(event);
+	} finally {
+		noteLocalWrite();
+	}
 };
 
 export const handle = sequence(headers, session, bearer, authorize, freshness);

@@ -41,7 +41,7 @@ export default async function setup(project: TestProject) {
 	run(['seeds/run.ts', '--quiet'], env);
 	for (const [role, username] of Object.entries(TEST_USERS))
 		run(['scripts/user-create.ts', '--username', username, '--name', `Test ${role}`, '--role', role, '--password', TEST_PASSWORD], env);
-	server = spawn(process.execPath, ['build/index.js'], {
+	server = spawn(process.execPath, ['scripts/serve.js'], {
 		// Every test request comes from 127.0.0.1: the per-address sign-in limit would soon lock the
 		// whole suite out (it is tested in tests/integration/auth.test.ts; the per-account one stays).
 		env: { ...env, HOST: '127.0.0.1', PORT: String(port), ORIGIN: baseURL, BODY_SIZE_LIMIT: '250M', LOCKSTEP_SIGNIN_ADDRESS_LIMIT: '100000' },

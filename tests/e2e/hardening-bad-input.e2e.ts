@@ -205,10 +205,17 @@ describe('bad requests to POST /api/ingest', () => {
 
 	it('oversize request headers → 431 from the HTTP server, which keeps serving', async () => {
 		const before = await counts();
-		// Node's HTTP parser answers 431 and closes; a client still writing may see the reset instead.
+		// Node's HTTP parser stops at the limit and the server answers 431; a client still writing a body
+		// may see the reset instead.
 		const r = await raw({ path: '/api/ingest', headers: { ...auth(), 'content-type': 'text/csv', 'x-padding': 'a'.repeat(64 * 1024) }, body: csv }).catch((e: Error) => ({ status: 0, body: String(e), type: '' }));
 		if (r.status === 0) expect(r.body).toMatch(/ECONNRESET|EPIPE/);
 		else expect(r.status).toBe(431);
+		// Headers alone (no body to be cut off): the answer says which limit, as JSON (scripts/serve.js).
+		const g = await raw({ method: 'GET', path: '/api/health', headers: { 'x-padding': 'a'.repeat(64 * 1024) } });
+		expect(g.status).toBe(431);
+		expect(g.type).toMatch(/application\/json/);
+		expect(JSON.parse(g.body).error).toMatch(/^headers: .*exceed 16 KB/);
+		expect((await fetch(`${base()}/api/health`)).status).toBe(200);
 		await expectNothingWritten(before, true);
 	});
 

@@ -46,7 +46,7 @@ export async function startServer(dataDir: string, env: NodeJS.ProcessEnv = {}, 
 	if (!fs.existsSync('build/index.js')) throw new Error('build/ is missing: run `npm run build` first');
 	const p = port ?? (await freePort());
 	const base = `http://127.0.0.1:${p}`;
-	const proc = spawn(process.execPath, ['build/index.js'], {
+	const proc = spawn(process.execPath, ['scripts/serve.js'], {
 		env: { ...process.env, LOCKSTEP_DATA_DIR: dataDir, NODE_ENV: 'production', HOST: '127.0.0.1', PORT: String(p), ORIGIN: base, BODY_SIZE_LIMIT: '250M', ...env },
 		stdio: ['ignore', 'pipe', 'pipe']
 	});

@@ -21,6 +21,8 @@ export interface AppConfig {
 	uploadLimitBytes: number;
 	ingestCron: string;
 	futureToleranceMs: number;
+	/** the scheduling niceness of the jobs' processes (0 = same as the web server) */
+	jobsNice: number;
 	isProduction: boolean;
 	smtp: { host: string; port: number; secure: boolean; user: string | null; pass: string | null; from: string };
 }
@@ -51,6 +53,7 @@ export function loadConfig(env: NodeJS.ProcessEnv = process.env): AppConfig {
 		uploadLimitBytes: int('LOCKSTEP_UPLOAD_LIMIT_MB', 200) * 1024 * 1024,
 		ingestCron: env.LOCKSTEP_INGEST_CRON ?? '* * * * *',
 		futureToleranceMs: int('LOCKSTEP_FUTURE_TOLERANCE_MIN', 10) * 60_000,
+		jobsNice: Math.max(0, Math.min(19, Math.round(int('LOCKSTEP_JOBS_NICE', 10)))),
 		isProduction: env.NODE_ENV === 'production',
 		smtp: {
 			host: env.SMTP_HOST ?? '127.0.0.1',

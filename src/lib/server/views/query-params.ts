@@ -22,3 +22,9 @@ export const optionalInstant = z
 		}
 		return t;
 	});
+
+/** A query string with its parameters in a fixed order, so that equal queries give one cache key. */
+export function canonicalQuery(sp: URLSearchParams): string {
+	const pairs = [...sp.entries()].sort(([a, x], [b, y]) => (a === b ? (x < y ? -1 : x > y ? 1 : 0) : a < b ? -1 : 1));
+	return new URLSearchParams(pairs).toString();
+}
