@@ -14,7 +14,7 @@
  *   answer their polls with "unknown".
  *
  * Plain JavaScript (no tsx) so the server starts with nothing but Node and the build. Environment as
- * adapter-node's: HOST (default 0.0.0.0), PORT (3000), ORIGIN, BODY_SIZE_LIMIT, SHUTDOWN_TIMEOUT (30 s),
+ * adapter-node's: HOST (default 127.0.0.1 here — loopback unless told; set 0.0.0.0 to serve the network), PORT (3000), ORIGIN, BODY_SIZE_LIMIT, SHUTDOWN_TIMEOUT (30 s),
  * KEEP_ALIVE_TIMEOUT, HEADERS_TIMEOUT (s); also LOCKSTEP_MAX_HEADER_KB (16).
  * SIGTERM / SIGINT stop taking connections, let requests in flight finish, then close the database.
  */
@@ -47,7 +47,7 @@ const num = (name, fallback) => {
 	if (!Number.isFinite(v) || v < 0) throw new Error(`${name} must be a non-negative number, got "${raw}"`);
 	return v;
 };
-const host = process.env.HOST ?? '0.0.0.0';
+const host = process.env.HOST ?? '127.0.0.1';
 const port = Number(process.env.PORT ?? 3000);
 const maxHeaderKb = num('LOCKSTEP_MAX_HEADER_KB', 16);
 const shutdownS = num('SHUTDOWN_TIMEOUT', 30);

@@ -1,6 +1,6 @@
 /**
  * Starts Lockstep for the e2e run: a fresh data folder, migrations and the demo seed through the same
- * scripts a user runs, three test accounts (one per role), then `node build` on a free loopback port.
+ * scripts a user runs, three test accounts (one per role), then the production server (`scripts/serve.js`, as `npm start`) on a free loopback port.
  */
 import { spawn, spawnSync, type ChildProcess } from 'node:child_process';
 import fs from 'node:fs';

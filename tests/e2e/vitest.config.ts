@@ -1,6 +1,6 @@
 import { defineConfig } from 'vitest/config';
 
-// Browser and HTTP tests against the built server (`node build`) on 127.0.0.1, one server for the run.
+// Browser and HTTP tests against the built server (`scripts/serve.js`, as `npm start`) on 127.0.0.1, one server for the run.
 export default defineConfig({
 	test: {
 		include: ['tests/e2e/**/*.e2e.ts'],

@@ -63,7 +63,8 @@ describe('feature-set changes', () => {
 			missing: ['throttle_valve_pos'],
 			file: { id: r.fileId, name: 'set2.csv' },
 			fileCount: 1,
-			rowsRefused: 4
+			rowsRefused: 4,
+			outcome: { setVersion: 2, reused: false }
 		});
 		expect(p.columns).toEqual(NEW_HEADER.slice(7));
 		expect(p.activeBaselines).toEqual([{ chamberCode: 'PM1', version: 1, featureSetVersion: 1 }]);
@@ -114,7 +115,7 @@ describe('feature-set changes', () => {
 
 	it('accepting writes set 2 from the proposed columns (kinds, units, derived ratios) and records who and when', async () => {
 		const r = await acceptFeatureSet(proposalId, 'eng-a', env.k);
-		expect(r).toEqual({ recipeStepId: stepId, setVersion: 2, features: 13 });
+		expect(r).toEqual({ recipeStepId: stepId, setVersion: 2, features: 13, reused: false });
 		expect(await stepVersion()).toBe(2);
 		const cat = await env.k('features').where({ recipe_step_id: stepId, set_version: 2 }).orderBy('position').select('name', 'kind', 'wavelength_nm', 'unit');
 		// The ratios follow the measured columns: O 777.4 / Ar 750.4, O 844.6 / Ar 750.4, F 703.7 / Ar 750.4
@@ -175,5 +176,21 @@ describe('feature-set changes', () => {
 		expect(d).toMatchObject({ id: p.id, status: 'dismissed', decidedBy: 'Engineer eng-b' });
 		expect(await stepVersion()).toBe(2);
 		expect(await env.k('wafer_steps').where('wafer_id', 'W00200').first()).toBeUndefined();
+	});
+
+	it('going back to the old columns returns the step to set 1 (no new set), and its active baseline scores them again', async () => {
+		const back = write(env.dir, 'back.csv', csv(HEADER, rows(3, 300)));
+		expect((await ingestFile(back, { source: 'inbox' })).rows).toMatchObject({ accepted: 0, rejected: 3 });
+		const [p] = await pending();
+		expect(p).toMatchObject({ baseSetVersion: 2, added: ['throttle_valve_pos'], missing: ['chuck_temp_c'], outcome: { setVersion: 1, reused: true } });
+		const setsBefore = await count(env.k, 'features');
+		const r = await acceptFeatureSet(p.id, 'eng-a', env.k);
+		expect(r).toEqual({ recipeStepId: stepId, setVersion: 1, features: 13, reused: true });
+		expect(await stepVersion()).toBe(1);
+		expect(await count(env.k, 'features')).toBe(setsBefore); // no catalogue written
+		expect((await env.k('feature_set_proposals').where({ id: p.id }).first()).accepted_set_version).toBe(1);
+		const again = await ingestFile(back, { source: 'inbox' });
+		expect(again.rows).toMatchObject({ total: 3, accepted: 3, rejected: 0 });
+		expect(again.waferSteps).toEqual({ scored: 3, noBaseline: 0 });
 	});
 });

@@ -40,6 +40,8 @@ export interface FeatureSetProposal {
 	acceptedSetVersion: number | null;
 	/** chambers whose active baseline for this step is on another set than the proposed one would be */
 	activeBaselines: Array<{ chamberCode: string; version: number; featureSetVersion: number }>;
+	/** for a pending proposal: the set accepting it would put in force — an earlier set with exactly these columns, or a new one */
+	outcome: { setVersion: number; reused: boolean } | null;
 }
 
 /** A proposal that cannot be accepted or dismissed (unknown, already decided, stale). */
@@ -111,7 +113,13 @@ export async function listFeatureSetProposals(
 				.orderBy('c.code')
 				.select('b.recipe_step_id', 'c.code', 'b.version', 'b.feature_set_version')
 		: [];
+	const outcomes = new Map<number, { setVersion: number; reused: boolean }>();
+	for (const r of rows.filter((x) => x.status === 'pending')) {
+		const o = await acceptOutcome(k, Number(r.recipe_step_id), Number(r.base_set_version), JSON.parse(r.columns_json));
+		outcomes.set(Number(r.id), { setVersion: o.setVersion, reused: o.reused });
+	}
 	return rows.map((r) => ({
+		outcome: outcomes.get(Number(r.id)) ?? null,
 		id: Number(r.id),
 		status: r.status,
 		recipeStepId: Number(r.recipe_step_id),
@@ -151,12 +159,50 @@ async function pendingProposal(trx: Knex.Transaction, id: number) {
 }
 
 /**
- * Accept a proposal, all or nothing: write catalog version (highest so far + 1) from the proposed
- * columns with the same classification and derived ratios as a first file (columns.ts, catalog.ts),
- * make it the step's set, record who accepted it and when, and mark other pending proposals of the
- * step superseded (they were measured against the old set).
+ * The step's earlier set whose measured columns (derived ratios aside) are exactly `names`, if any:
+ * a step that goes back to an older column list goes back to that set, so its wafers read with that
+ * catalogue and score against that set's still-active baselines instead of waiting for new ones.
  */
-export async function acceptFeatureSet(proposalId: number, userId: string, k: Knex = db()): Promise<{ recipeStepId: number; setVersion: number; features: number }> {
+async function matchingSet(trx: Knex, recipeStepId: number, names: string[]): Promise<{ setVersion: number; features: number } | null> {
+	const rows: { set_version: number; name: string; kind: string }[] = await trx('features').where({ recipe_step_id: recipeStepId }).select('set_version', 'name', 'kind');
+	const sets = new Map<number, { measured: Set<string>; features: number }>();
+	for (const r of rows) {
+		const v = Number(r.set_version);
+		const s = sets.get(v) ?? { measured: new Set<string>(), features: 0 };
+		s.features++;
+		if (r.kind !== 'derived') s.measured.add(r.name);
+		sets.set(v, s);
+	}
+	const wanted = new Set(names);
+	const same = [...sets.entries()].filter(([, s]) => s.measured.size === wanted.size && [...wanted].every((n) => s.measured.has(n)));
+	if (!same.length) return null;
+	const [setVersion, s] = same.sort((a, b) => b[0] - a[0])[0]; // the newest such set
+	return { setVersion, features: s.features };
+}
+
+/**
+ * The set that accepting a proposal with measured columns `names` puts in force: the newest earlier set
+ * with exactly those columns (`reused`, with its feature count), else a new version, highest so far + 1.
+ */
+async function acceptOutcome(k: Knex, recipeStepId: number, baseSetVersion: number, names: string[]): Promise<{ setVersion: number; reused: boolean; features: number | null }> {
+	const earlier = await matchingSet(k, recipeStepId, names);
+	if (earlier) return { setVersion: earlier.setVersion, reused: true, features: earlier.features };
+	const top = await k('features').where({ recipe_step_id: recipeStepId }).max({ v: 'set_version' }).first();
+	return { setVersion: Math.max(Number(top?.v ?? 0), baseSetVersion) + 1, reused: false, features: null };
+}
+
+/**
+ * Accept a proposal, all or nothing: when an earlier set of the step has exactly the proposed measured
+ * columns, return the step to that set (`reused`); otherwise write catalog version (highest so far + 1)
+ * from the proposed columns with the same classification and derived ratios as a first file
+ * (columns.ts, catalog.ts). Either way make it the step's set, record who accepted it and when, and
+ * mark other pending proposals of the step superseded (they were measured against the old set).
+ */
+export async function acceptFeatureSet(
+	proposalId: number,
+	userId: string,
+	k: Knex = db()
+): Promise<{ recipeStepId: number; setVersion: number; features: number; reused: boolean }> {
 	return k.transaction(async (trx) => {
 		const p = await pendingProposal(trx, proposalId);
 		const features: Omit<FeatureColumn, 'index'>[] = (JSON.parse(p.columns_json) as string[]).map((name) => {
@@ -164,9 +210,9 @@ export async function acceptFeatureSet(proposalId: number, userId: string, k: Kn
 			if ('error' in c) throw new FeatureSetError(`Column "${name}" ${c.error}; this proposal cannot become a feature set.`);
 			return c;
 		});
-		const top = await trx('features').where({ recipe_step_id: p.recipe_step_id }).max({ v: 'set_version' }).first();
-		const setVersion = Math.max(Number(top?.v ?? 0), Number(p.base_set_version)) + 1;
-		const n = await insertCatalog(trx, Number(p.recipe_step_id), setVersion, features);
+		const o = await acceptOutcome(trx, Number(p.recipe_step_id), Number(p.base_set_version), features.map((f) => f.name));
+		const setVersion = o.setVersion;
+		const n = o.reused ? o.features! : await insertCatalog(trx, Number(p.recipe_step_id), setVersion, features);
 		const at = now();
 		const moved = await trx('recipe_steps')
 			.where({ id: p.recipe_step_id, feature_set_version: p.base_set_version })
@@ -178,7 +224,7 @@ export async function acceptFeatureSet(proposalId: number, userId: string, k: Kn
 		await trx('feature_set_proposals')
 			.where({ recipe_step_id: p.recipe_step_id, status: 'pending' })
 			.update({ status: 'superseded', decided_at: at });
-		return { recipeStepId: Number(p.recipe_step_id), setVersion, features: n };
+		return { recipeStepId: Number(p.recipe_step_id), setVersion, features: n, reused: o.reused };
 	});
 }
 

@@ -28,7 +28,9 @@ export const actions: Actions = {
 				action: 'accept',
 				id,
 				ok: true,
-				message: `Feature set ${r.setVersion} (${r.features} features) is now in force for this step. Send the refused file again to store its rows; each chamber needs new golden wafers and an approved baseline of set ${r.setVersion} before its wafers are scored.`
+				message: r.reused
+					? `The step is back on its earlier feature set ${r.setVersion} (${r.features} features), which has exactly these columns. Send the refused file again to store its rows; chambers with an active baseline of set ${r.setVersion} score them right away, the others need one approved first.`
+					: `Feature set ${r.setVersion} (${r.features} features) is now in force for this step. Send the refused file again to store its rows; each chamber needs new golden wafers and an approved baseline of set ${r.setVersion} before its wafers are scored.`
 			};
 		} catch (e) {
 			if (e instanceof FeatureSetError) return fail(400, { action: 'accept', id, ok: false, message: e.message });
