@@ -61,4 +61,18 @@ export {
 	type ActinometryRatioSpec
 } from './actinometry';
 export { EMISSION_LINES, identifyLines, identifyFeature, type EmissionLine } from './emission-lines';
+export {
+	leakSignature,
+	waferLeakSignature,
+	leakGasOf,
+	goldenZ,
+	LEAK_ELEMENTS,
+	LEAK_RISE_Z,
+	LEAK_TOP,
+	LEAK_Q_SHARE,
+	type LeakGas,
+	type LeakEvidence,
+	type LeakContributor,
+	type LeakSignature
+} from './leak-signature';
 export { serializeModel, deserializeModel, modelToBlob, modelFromBlob } from './serialize';

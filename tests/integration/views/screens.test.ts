@@ -174,7 +174,8 @@ describe('wafer-step screen', () => {
 		const top = v.contributions![v.contributions!.primary].slice(0, 3).map((c) => c.feature);
 		expect(new Set(top)).toEqual(new Set(N2));
 		expect(v.contributions!.q[0].lines[0].element).toBe('N2');
-		expect(v.leak?.kind).toBe('air');
+		expect(v.leak?.gases).toEqual(['air']);
+		expect(v.leak?.channels).toEqual(expect.arrayContaining(N2.slice(0, 1)));
 		expect(v.spectrum.filter((p) => p.highlighted).map((p) => p.feature)).toEqual(expect.arrayContaining(N2));
 		expect(v.sensors.map((s) => s.feature)).toEqual(['pressure_mtorr', 'rf_forward_w']);
 		expect(v.actinometry.map((a) => a.name)).toEqual(['ratio_O777_Ar750', 'ratio_O845_Ar750', 'ratio_F704_Ar750']);

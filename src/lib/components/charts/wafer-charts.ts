@@ -4,6 +4,7 @@
  * contributing channels marked.
  */
 import type { Contributor, WaferView } from '$lib/server/views/wafer-view';
+import { LEAK_RISE_Z } from '$lib/monitoring/leak-signature';
 import { baseAxis, baseTooltip, type ChartColors, type EChartsCoreOption } from './echarts';
 import { value } from './format';
 
@@ -16,8 +17,8 @@ export function contributorLabel(c: Contributor): string {
 export function contributionOption(list: Contributor[], c: ChartColors, stat: 'T²' | 'Q'): EChartsCoreOption {
 	const rows = [...list].reverse();
 	const axis = baseAxis(c);
-	// Red only for a leak-like line that has actually risen (> 3 golden σ): a quiet N2 channel is not news.
-	const colour = (r: Contributor) => (r.z > 3 && r.lines.some((l) => ['N2', 'CN', 'He'].includes(l.element)) ? c.alarm : r.kind === 'sensor' ? c.warn : c.info);
+	// Red only for a leak line that has actually risen (the engine's leak rule): a quiet N2 channel is not news.
+	const colour = (r: Contributor) => (r.leakGas !== null && r.z > LEAK_RISE_Z ? c.alarm : r.kind === 'sensor' ? c.warn : c.info);
 	return {
 		animation: false,
 		grid: { left: 8, right: 56, top: 8, bottom: 24, containLabel: true },

@@ -5,12 +5,12 @@
  * - A fleet alarm: the features that set the chamber apart from the fleet (stored with the alarm).
  * - A wafer alarm: the top reconstruction-based contributions (Alcala & Qin 2009, Automatica 45:1593)
  *   of its worst wafer to the statistic that is further over its limit (T² or Q).
- * - Leak-like: the leading features are N₂ (air) or He (backside helium) lines, and for a wafer alarm Q
- *   leads — a leak adds species the golden wafers never had, which shows in Q (DOMAIN notes; the same
- *   rule as the alarm screens).
+ * - Leak-like: the engine's one rule (monitoring/leak-signature.ts), the same the alarm screens and
+ *   the wafer page use: for a wafer alarm its worst wafer's signature, for a fleet alarm its separating
+ *   features.
  */
 import type { Knex } from 'knex';
-import { contributions, identifyFeature, rankContributions } from '../../monitoring/index.ts';
+import { contributions, leakSignature, rankContributions, waferLeakSignature, type LeakGas } from '../../monitoring/index.ts';
 import { getModel } from '../baselines.ts';
 import { decodeValues } from '../feature-values.ts';
 
@@ -18,18 +18,19 @@ export interface AlarmFacts {
 	/** which statistic the features explain */
 	basis: 'T²' | 'Q' | 'fleet' | null;
 	top: { feature: string; share: number | null }[];
-	leakGases: string[];
+	/** gases of a leak-like signature ('air', 'helium'); empty when it is not leak-like */
+	leakGases: LeakGas[];
 }
 
-const LEAK_ELEMENTS = new Set(['N2', 'CN', 'He']);
-
-export function leakGasesOf(features: string[]): string[] {
-	const gases = new Set<string>();
-	for (const f of features) for (const l of identifyFeature(f)) if (LEAK_ELEMENTS.has(l.element)) gases.add(l.element === 'CN' ? 'N2' : l.element);
-	return [...gases].sort();
+/**
+ * The gases of a fleet separation's features (names only, each flagged on its own), by the engine's
+ * rule; the digest uses it for flagged chambers.
+ */
+export function leakGasesOf(separating: string[]): LeakGas[] {
+	return leakSignature('fleet', separating.map((feature) => ({ feature })))?.gases ?? [];
 }
 
-export const GAS_NAMES: Record<string, string> = { N2: 'nitrogen (air)', He: 'helium' };
+export const GAS_NAMES: Record<string, string> = { air: 'nitrogen (air)', helium: 'helium' };
 
 export async function alarmFacts(
 	a: { rule: string; baselineId: number | null; worstWaferStepId: number | null; detail: Record<string, unknown> },
@@ -52,8 +53,7 @@ export async function alarmFacts(
 		const qLeads = Number(score.q_ratio) >= Number(score.t2_ratio);
 		const c = contributions(model, values, 'rbc');
 		const ranked = rankContributions(qLeads ? c.q : (c.t2 ?? c.q), top);
-		const features = ranked.map((r) => r.feature);
-		return { basis: qLeads ? 'Q' : 'T²', top: ranked.map((r) => ({ feature: r.feature, share: r.share })), leakGases: qLeads ? leakGasesOf(features) : [] };
+		return { basis: qLeads ? 'Q' : 'T²', top: ranked.map((r) => ({ feature: r.feature, share: r.share })), leakGases: waferLeakSignature(model, values)?.gases ?? [] };
 	} catch {
 		return none; // an unreadable model: the mail goes without the features rather than not at all
 	}

@@ -5,7 +5,7 @@
  */
 import type { Knex } from 'knex';
 import { median } from 'simple-statistics';
-import { contributions, identifyFeature, rankContributions } from '../../monitoring/index.ts';
+import { leakSignature as leakRule, waferLeakSignature, type LeakGas } from '../../monitoring/index.ts';
 import { DISPOSITIONS, RULE_LABELS, type AlarmRule } from '../alarms.ts';
 import { getModel } from '../baselines.ts';
 import { db } from '../db.ts';
@@ -100,10 +100,13 @@ export interface QueueAlarm {
 }
 
 export interface LeakSignature {
-	gases: string[];
+	/** as the alarm screens name them: N2 for air (N₂ bands, CN), He for backside helium */
+	gases: ('N2' | 'He')[];
 	features: string[];
 	basis: 'q-contributions' | 'fleet-separation';
 }
+
+const GAS_CODE: Record<LeakGas, 'N2' | 'He'> = { air: 'N2', helium: 'He' };
 
 function base(k: Knex) {
 	return k('alarms as a')
@@ -163,7 +166,7 @@ function toAlarm(r: any): Omit<QueueAlarm, 'lastAck' | 'leak'> {
 }
 
 /** The latest acknowledgement of each alarm (cause, disposition, who). */
-async function lastAcks(ids: number[], k: Knex): Promise<Map<number, AckSummary>> {
+export async function lastAcks(ids: number[], k: Knex): Promise<Map<number, AckSummary>> {
 	const out = new Map<number, AckSummary>();
 	for (let i = 0; i < ids.length; i += 500) {
 		const rows = await k('alarm_actions as x')
@@ -179,46 +182,26 @@ async function lastAcks(ids: number[], k: Knex): Promise<Map<number, AckSummary>
 	return out;
 }
 
-/** Gases whose presence in a chamber means a leak or a backside-helium problem. */
-const LEAK_GASES = new Set(['N2', 'He', 'CN']);
-
 /**
- * A leak-like signature: the lines that lead the alarm belong to N2 (air) or He (backside helium).
- * For a fleet alarm, the separating features; for a wafer alarm whose Q ratio is the larger one (a
- * new direction, see DOMAIN), the reconstruction-based Q contributions of the worst wafer (Alcala &
- * Qin 2009): its leading contributor, or half of Q among the top five, on N2/CN or He lines.
- * A T²-led alarm is not called leak-like: a leak adds species the golden wafers never had, which is Q.
+ * The alarm's leak-like signature by the engine's one rule (monitoring/leak-signature.ts), which the
+ * mails and the wafer page use too: for a fleet alarm its separating features, for a wafer alarm its
+ * worst wafer (reconstruction-based Q contributions with their golden z).
  */
 async function leakSignature(a: Omit<QueueAlarm, 'lastAck' | 'leak'>, k: Knex): Promise<LeakSignature | null> {
-	const gasesOf = (features: string[]) => {
-		const hits = features.filter((f) => identifyFeature(f).some((l) => LEAK_GASES.has(l.element)));
-		const gases = [...new Set(hits.flatMap((f) => identifyFeature(f).filter((l) => LEAK_GASES.has(l.element)).map((l) => (l.element === 'CN' ? 'N2' : l.element))))];
-		return { hits, gases };
-	};
 	if (a.rule === 'fleet') {
 		const sep = Array.isArray(a.detail.separating) ? (a.detail.separating as unknown[]).map(String) : [];
-		const { hits, gases } = gasesOf(sep);
-		return hits.length ? { gases, features: hits, basis: 'fleet-separation' } : null;
+		const s = leakRule('fleet', sep.map((feature) => ({ feature })));
+		return s ? { gases: s.gases.map((g) => GAS_CODE[g]), features: s.channels, basis: 'fleet-separation' } : null;
 	}
 	if (a.worstWaferStepId === null || a.baselineId === null) return null;
-	const score = await k('scores').where({ wafer_step_id: a.worstWaferStepId, baseline_id: a.baselineId }).first('t2_ratio', 'q_ratio');
-	if (!score || !(score.q_ratio >= score.t2_ratio)) return null;
 	const w = await k('wafer_steps').where({ id: a.worstWaferStepId }).first('feature_values');
 	if (!w) return null;
 	try {
 		const model = await getModel(a.baselineId, k);
 		const values = decodeValues(w.feature_values);
 		if (values.length !== model.p) return null;
-		// Leak-like when the leading Q contributor is a leak gas's line, or such lines carry half of Q
-		// among the top five. Only lines of at least half the leading contribution are named: RBC smears
-		// some of a fault onto correlated channels (common practice), which should not add a gas.
-		const top = rankContributions(contributions(model, values, 'rbc').q, 5);
-		const isLeak = (f: string) => gasesOf([f]).hits.length > 0;
-		const named = top.filter((c) => isLeak(c.feature) && c.value >= 0.5 * top[0].value);
-		const share = named.reduce((s, c) => s + c.share, 0);
-		if (!named.length || !(isLeak(top[0].feature) || share >= 0.5)) return null;
-		const { hits, gases } = gasesOf(named.map((c) => c.feature));
-		return { gases, features: hits, basis: 'q-contributions' };
+		const s = waferLeakSignature(model, values);
+		return s ? { gases: s.gases.map((g) => GAS_CODE[g]), features: s.channels, basis: 'q-contributions' } : null;
 	} catch {
 		return null; // an unreadable model or vector: no reminder rather than a broken queue
 	}

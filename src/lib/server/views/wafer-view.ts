@@ -9,20 +9,22 @@ import {
 	actinometryRatios,
 	ACTINOMETRY_RATIOS,
 	contributions,
+	goldenZ,
 	identifyFeature,
+	leakGasOf,
 	planActinometry,
 	rankContributions,
 	scoreWafer,
-	type ContributionKind
+	waferLeakSignature,
+	type ContributionKind,
+	type LeakGas
 } from '../../monitoring/index.ts';
-import { RULE_LABELS, type AlarmRule } from '../alarms.ts';
+import { DISPOSITIONS, RULE_LABELS, type AlarmRule } from '../alarms.ts';
 import { getModel } from '../baselines.ts';
 import { db } from '../db.ts';
 import { decodeValues } from '../feature-values.ts';
 import { getCatalog, type CatalogFeature } from '../wafer-steps.ts';
-
-/** Emission-line elements whose appearance among the top contributors looks like a leak. */
-const LEAK_ELEMENTS: Record<string, 'air' | 'helium'> = { N2: 'air', CN: 'air', He: 'helium' };
+import { lastAcks, type AckSummary } from './alarm-queue.ts';
 const TOP = 15;
 const HIGHLIGHT = 8;
 
@@ -34,9 +36,26 @@ export interface Contributor {
 	wavelengthNm: number | null;
 	/** the likely emission line(s), nearest first (OES channels only) */
 	lines: { species: string; element: string; wavelengthNm: number; note: string }[];
-	/** the wafer's value in golden standard deviations from the golden mean */
+	/** the wafer's value in golden standard deviations from the golden mean (engine's goldenZ) */
 	z: number;
+	/** the gas a leak line points at (N₂/CN bands: air, He I: helium), null for other channels */
+	leakGas: LeakGas | null;
 	unit: string | null;
+}
+
+export interface WaferAlarm {
+	id: number;
+	rule: string;
+	ruleLabel: string;
+	severity: string;
+	state: 'open' | 'acknowledged' | 'closed';
+	openedAt: number;
+	lastSeenAt: number;
+	waferCount: number;
+	worstRatio: number | null;
+	worstWaferStepId: number | null;
+	/** the latest acknowledgement (who, cause, when), for an alarm that is no longer open */
+	acknowledgement: (AckSummary & { dispositionLabel: string | null }) | null;
 }
 
 export interface WaferView {
@@ -68,11 +87,14 @@ export interface WaferView {
 	spectrum: { wavelengthNm: number; feature: string; value: number; mean: number; sd: number; highlighted: boolean }[];
 	sensors: { feature: string; unit: string | null; value: number; mean: number; sd: number; z: number }[];
 	actinometry: { name: string; meaning: string; numerator: string; denominator: string; value: number; baseline: number; change: number }[];
-	alarms: { id: number; rule: string; ruleLabel: string; severity: string; state: string; openedAt: number; lastSeenAt: number; waferCount: number; worstRatio: number | null; worstWaferStepId: number | null }[];
+	alarms: WaferAlarm[];
 	previous: { id: number; waferId: string; processedAt: number } | null;
 	next: { id: number; waferId: string; processedAt: number } | null;
-	/** top contributors that look like a leak (N2 / CN bands, He lines), with what they suggest */
-	leak: { kind: 'air' | 'helium'; channels: string[] } | null;
+	/**
+	 * the leak-like signature by the engine's one rule (the alarm screens and mails use it too):
+	 * gases, the risen leak-line channels and oxygen lines risen with an air signature
+	 */
+	leak: { gases: LeakGas[]; channels: string[]; supporting: string[] } | null;
 }
 
 const catalogs = new Map<string, CatalogFeature[]>();
@@ -148,7 +170,8 @@ export async function getWaferView(id: number, kind: 'rbc' | 'complete' = 'rbc',
 			alpha: model.alpha
 		};
 		const index = new Map(model.featureNames.map((f, j) => [f, j]));
-		const zOf = (j: number) => (model.sd[j] > 0 ? (x[j] - model.mean[j]) / model.sd[j] : 0);
+		const z = goldenZ(model, x);
+		const zOf = (j: number) => z[j];
 		const describe = (r: { feature: string; value: number; share: number }): Contributor => {
 			const j = index.get(r.feature)!;
 			const f = byName.get(r.feature);
@@ -159,6 +182,7 @@ export async function getWaferView(id: number, kind: 'rbc' | 'complete' = 'rbc',
 				wavelengthNm: f?.wavelengthNm ?? null,
 				lines: isOes ? identifyFeature(f?.wavelengthNm != null ? `oes_${f.wavelengthNm}` : r.feature).slice(0, 2).map((l) => ({ species: l.species, element: l.element, wavelengthNm: l.wavelengthNm, note: l.note })) : [],
 				z: zOf(j),
+				leakGas: isOes ? leakGasOf(r.feature) : null,
 				unit: f?.unit ?? null
 			};
 		};
@@ -198,7 +222,10 @@ export async function getWaferView(id: number, kind: 'rbc' | 'complete' = 'rbc',
 				view.actinometry = []; // an argon channel at zero: no ratio to show
 			}
 		}
-		if (s.state !== 'ok') view.leak = leakLike([...lead.slice(0, 5), ...view.contributions[primary === 'q' ? 't2' : 'q'].slice(0, 3)]);
+		// Always from reconstruction-based Q contributions, whichever kind the screen shows, so the
+		// wafer page says what the alarm queue and the mails say.
+		const leak = waferLeakSignature(model, x);
+		if (leak) view.leak = { gases: leak.gases, channels: leak.channels, supporting: leak.supporting };
 	} else {
 		catalog.forEach((f, j) => {
 			if (f.kind === 'oes' && f.wavelengthNm !== null) view.spectrum.push({ wavelengthNm: f.wavelengthNm, feature: f.name, value: x[j], mean: NaN, sd: NaN, highlighted: false });
@@ -217,18 +244,23 @@ export async function getWaferView(id: number, kind: 'rbc' | 'complete' = 'rbc',
 		)
 		.orderBy('opened_at', 'desc')
 		.select('id', 'rule', 'severity', 'state', 'opened_at', 'last_seen_at', 'wafer_count', 'worst_ratio', 'worst_wafer_step_id');
-	view.alarms = alarms.map((a) => ({
-		id: a.id,
-		rule: a.rule,
-		ruleLabel: RULE_LABELS[a.rule as AlarmRule] ?? a.rule,
-		severity: a.severity,
-		state: a.state,
-		openedAt: Number(a.opened_at),
-		lastSeenAt: Number(a.last_seen_at),
-		waferCount: a.wafer_count,
-		worstRatio: a.worst_ratio,
-		worstWaferStepId: a.worst_wafer_step_id
-	}));
+	const acks = await lastAcks(alarms.filter((a) => a.state !== 'open').map((a) => a.id), k);
+	view.alarms = alarms.map((a) => {
+		const ack = a.state === 'open' ? undefined : acks.get(a.id);
+		return {
+			id: a.id,
+			rule: a.rule,
+			ruleLabel: RULE_LABELS[a.rule as AlarmRule] ?? a.rule,
+			severity: a.severity,
+			state: a.state,
+			openedAt: Number(a.opened_at),
+			lastSeenAt: Number(a.last_seen_at),
+			waferCount: a.wafer_count,
+			worstRatio: a.worst_ratio,
+			worstWaferStepId: a.worst_wafer_step_id,
+			acknowledgement: ack ? { ...ack, dispositionLabel: ack.disposition ? (DISPOSITIONS[ack.disposition] ?? ack.disposition) : null } : null
+		};
+	});
 
 	const neighbour = async (dir: 'prev' | 'next') => {
 		const op = dir === 'prev' ? '<' : '>';
@@ -243,22 +275,4 @@ export async function getWaferView(id: number, kind: 'rbc' | 'complete' = 'rbc',
 	view.previous = await neighbour('prev');
 	view.next = await neighbour('next');
 	return view;
-}
-
-/** A leak adds emission: the channel must sit this many golden σ above its golden mean. */
-const LEAK_Z = 3;
-
-/**
- * Leak-like, for a wafer above a warning limit: an N2 or CN band (air) or a He line (helium) among
- * the top contributors, risen more than 3 golden σ (common practice: a leak adds light, it never
- * removes it). Oxygen lines rising with N2 also point at air; O alone is left out, since an O2 flow
- * change moves it too.
- */
-export function leakLike(top: Contributor[]): WaferView['leak'] {
-	const hits = top.filter((c) => c.z > LEAK_Z && c.lines.some((l) => l.element in LEAK_ELEMENTS));
-	if (!hits.length) return null;
-	const kinds = hits.map((c) => LEAK_ELEMENTS[c.lines.find((l) => l.element in LEAK_ELEMENTS)!.element]);
-	const kind = kinds.includes('air') ? 'air' : 'helium';
-	const oxygen = kind === 'air' ? top.filter((c) => c.lines.some((l) => l.element === 'O') && c.z > LEAK_Z) : [];
-	return { kind, channels: [...new Set([...hits, ...oxygen].map((c) => c.feature))] };
 }
