@@ -137,8 +137,10 @@ describe('feature-set changes over HTTP', () => {
 		await page.goto(`${base()}/uploads/feature-sets`);
 		const card = page.getByTestId(`proposal-${id}`);
 		await card.getByText('− chuck_temp_c').waitFor();
-		await card.getByText('Accept as set 3…').click();
-		await card.getByText('unscored until a baseline of set 3 is approved').waitFor();
+		// the old columns are exactly set 1's: accepting would return the step to set 1, not write a set 3
+		await card.getByTestId('outcome').filter({ hasText: 'returns the step to set 1 (no new set)' }).waitFor();
+		await card.getByText('Return to set 1…').click();
+		await card.getByText('without a set-1 baseline go unscored until one is approved').waitFor();
 		await screenshot(page, 'feature-sets-pending');
 		await card.getByText('Dismiss…').click();
 		await card.getByRole('button', { name: `Dismiss proposal #${id}` }).click();
