@@ -54,6 +54,22 @@ describe('fleet matching', () => {
 		await ctx.close();
 	});
 
+	it('the air-leak chamber apart from the fleet carries the safety reminder; the part-swap chamber does not', async () => {
+		const cookie = await signIn('viewer');
+		const html = await (await request('/fleet', { cookie })).text();
+		// every step's link: ?step=N (seeds/demo/episodes.ts: the air leak shows on OXV-22)
+		const stepIds = [...new Set([...html.matchAll(/href="\?step=(\d+)"/g)].map((m) => m[1]))];
+		expect(stepIds.length).toBeGreaterThan(1);
+		let reminded = 0;
+		for (const id of stepIds) {
+			const page = await (await request(`/fleet?step=${id}&chamber=${EPISODE_CHAMBERS.airLeak}`, { cookie })).text();
+			if (/Lockstep is not a safety system/.test(page) && /site(&#39;|')s gas detection, interlocks and safety procedures\s+are authoritative/.test(page)) reminded++;
+			const swap = await (await request(`/fleet?step=${id}&chamber=${EPISODE_CHAMBERS.partSwap}`, { cookie })).text();
+			expect(swap).not.toMatch(/Lockstep is not a safety system/);
+		}
+		expect(reminded).toBeGreaterThan(0);
+	});
+
 	it('runs matching now for an engineer', async () => {
 		const cookie = await signIn('engineer');
 		const html = await (await request('/fleet', { cookie })).text();

@@ -72,7 +72,17 @@ export function chamberChartOption(s: ChamberSeries, c: ChartColors, zone: strin
 		yAxis: [
 			yRatio(0, 'T² / limit'),
 			yRatio(1, 'Q / limit'),
-			{ type: 'value', gridIndex: 2, name: 'fleet z', ...axis, splitNumber: 2, min: (v: { min: number }) => Math.min(0, Math.floor(v.min)), ...(s.fleet.every((f) => f.modifiedZ < s.fleetThreshold + 1) ? { max: s.fleetThreshold + 1 } : {}) }
+			{
+				type: 'value',
+				gridIndex: 2,
+				name: 'fleet z',
+				...axis,
+				splitNumber: 2,
+				min: (v: { min: number }) => Math.min(0, Math.floor(v.min)),
+				// Room above the flag line when every point is below it; that fixed top gets no label of its
+				// own (it would sit on the tick below it).
+				...(s.fleet.every((f) => f.modifiedZ < s.fleetThreshold + 1) ? { max: s.fleetThreshold + 1, axisLabel: { ...axis.axisLabel, showMaxLabel: false } } : {})
+			}
 		],
 		series: [
 			...(['t2', 'q'] as const).flatMap((stat, g) => {
