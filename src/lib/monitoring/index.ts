@@ -49,6 +49,14 @@ export {
 } from './fleet';
 export { referenceStats, type InControl } from './reference';
 export { ewma, type EwmaChart, type EwmaOptions } from './ewma';
+export { sampleAutocorrelation, bartlettStandardErrors } from './autocorrelation';
+export {
+	ewmastVarianceFactor,
+	ewmaInflation,
+	EWMAST_M,
+	type EwmaInflation,
+	type EwmaInflationOptions
+} from './ewma-autocorrelation';
 export { runRules, type RunRule, type RunRuleViolation, type RunRuleOptions } from './run-rules';
 export { forecastCrossing, type CrossingForecast, type ForecastOptions } from './forecast';
 export {

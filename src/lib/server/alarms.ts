@@ -3,8 +3,9 @@
  *
  * Rules (admin policy, `alarm_policy`): `single` — one wafer-step above the α limit in T² or Q;
  * `run` — k of the last m wafer-steps above a warning limit (adapted from the Western Electric
- * Statistical Quality Control Handbook, 1956: "2 of 3 beyond 2σ"); `ewma` — the EWMA of the worst
- * ratio above its upper limit (Roberts 1959; Lucas & Saccucci 1990); `fleet` — the chamber sits apart
+ * Statistical Quality Control Handbook, 1956: "2 of 3 beyond 2σ"); `ewma` — the EWMA of the T² or Q
+ * ratio above its upper limit (Roberts 1959; Lucas & Saccucci 1990), its in-control variance widened
+ * by the golden wafers' autocorrelation (Zhang 1998, see {@link ewmaChartSd}); `fleet` — the chamber sits apart
  * from the fleet (modified z-score, Iglewicz & Hoaglin 1993).
  *
  * One live alarm (open or acknowledged) per chamber × recipe step × rule: while the condition lasts the
@@ -12,8 +13,8 @@
  * append-only `alarm_actions` row.
  */
 import type { Knex } from 'knex';
-import { ewma } from '../monitoring/index.ts';
-import type { EwmaReference } from './baselines.ts';
+import { ewma, ewmaInflation, type EwmaInflation } from '../monitoring/index.ts';
+import type { EwmaReference, EwmaStatReference } from './baselines.ts';
 import type { AlarmPolicy } from './settings.ts';
 import { now } from './time.ts';
 
@@ -51,6 +52,22 @@ export interface BaselineLimits {
 	ewmaReference: EwmaReference | null;
 }
 
+/**
+ * The σ an EWMA chart of one ratio series uses: the golden sd, widened to sd · √F when the baseline
+ * kept the golden series' ACF. F is Zhang's (1998) EWMAST variance factor at the policy's λ, summed
+ * over the lags while r_k stays positive, never below 1 (`ewmaInflation`, which says why). Wafers of one lot
+ * share incoming film, and the chamber wanders between lots, so successive ratios are positively
+ * correlated and the independent-data limits are too tight. Baselines stored before the ACF was
+ * kept (no `acf` or no `n`) get F = 1: today's behaviour.
+ *
+ * @returns the σ for the chart and the factor with how it was reached (null when there is no ACF)
+ */
+export function ewmaChartSd(ref: EwmaStatReference, n: number | undefined, lambda: number): { sd: number; inflation: EwmaInflation | null } {
+	if (!ref.acf || !n) return { sd: ref.sd, inflation: null };
+	const inflation = ewmaInflation(lambda, ref.acf, n);
+	return { sd: ref.sd * Math.sqrt(inflation.factor), inflation };
+}
+
 export interface Violation {
 	rule: AlarmRule;
 	point: ScoredPoint;
@@ -74,7 +91,8 @@ export function evaluateRules(history: ScoredPoint[], fresh: ScoredPoint[], limi
 			const m = ref[stat];
 			if (!(m.sd > 0) || !Number.isFinite(m.mean)) continue;
 			const series = all.map((p) => (stat === 't2' ? p.t2Ratio : p.qRatio));
-			charts.push({ stat, chart: ewma(series, { lambda: policy.ewmaLambda, L: policy.ewmaL, mean: m.mean, sd: m.sd }) });
+			const { sd } = ewmaChartSd(m, ref.n, policy.ewmaLambda);
+			charts.push({ stat, chart: ewma(series, { lambda: policy.ewmaLambda, L: policy.ewmaL, mean: m.mean, sd }) });
 		}
 	}
 	for (let i = 0; i < fresh.length; i++) {

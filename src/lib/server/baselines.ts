@@ -7,7 +7,9 @@ import {
 	fitBaseline,
 	modelFromBlob,
 	modelToBlob,
+	sampleAutocorrelation,
 	scoreBatch,
+	EWMAST_M,
 	type BaselineModel,
 	type ScalingMethod
 } from '../monitoring/index.ts';
@@ -114,20 +116,46 @@ export interface BaselineSummary {
 	ewmaReference: EwmaReference | null;
 }
 
-export interface EwmaReference {
-	t2: { mean: number; sd: number };
-	q: { mean: number; sd: number };
-	folds: number;
+/** In-control level of one ratio series for its EWMA chart. */
+export interface EwmaStatReference {
+	mean: number;
+	sd: number;
+	/**
+	 * Sample autocorrelation r_1 … r_M of the cross-validated golden ratios in processing order
+	 * (M = min(25, n − 1): Zhang's horizon, EWMAST_M), from which the chart widens its limits for
+	 * correlated wafers. Absent on baselines stored before it was kept (their charts assume
+	 * independent wafers), and when the series is constant.
+	 */
+	acf?: number[];
 }
 
+export interface EwmaReference {
+	t2: EwmaStatReference;
+	q: EwmaStatReference;
+	folds: number;
+	/** Golden wafers the reference (and its ACF) came from; absent on older baselines. */
+	n?: number;
+}
+
+/**
+ * The EWMA charts' in-control reference: mean, sd and ACF of the golden wafers' cross-validated
+ * T²/limit and Q/limit. `rows` must be in processing order (getWaferStepsByIds sorts by
+ * processed_at, then id), since the ACF is only meaningful along time.
+ */
 function ewmaReference(rows: Float64Array[], model: BaselineModel): EwmaReference | null {
+	let cv: ReturnType<typeof crossValidatedScores>;
 	try {
-		const cv = crossValidatedScores(rows, model, 5);
-		const m = (a: Float64Array) => ({ mean: mean(Array.from(a)), sd: sampleStandardDeviation(Array.from(a)) });
-		return { t2: m(cv.t2Ratio), q: m(cv.qRatio), folds: cv.folds };
+		cv = crossValidatedScores(rows, model, 5);
 	} catch {
 		return null; // too few golden wafers to cross-validate: the EWMA rule stays off for this baseline
 	}
+	const lags = Math.min(EWMAST_M, rows.length - 1);
+	const m = (a: Float64Array): EwmaStatReference => {
+		const ref: EwmaStatReference = { mean: mean(Array.from(a)), sd: sampleStandardDeviation(Array.from(a)) };
+		if (ref.sd > 0) ref.acf = Array.from(sampleAutocorrelation(a, lags));
+		return ref;
+	};
+	return { t2: m(cv.t2Ratio), q: m(cv.qRatio), folds: cv.folds, n: rows.length };
 }
 
 /** Fit and store a draft baseline from chosen wafer-steps. Nothing is stored when the fit fails. */

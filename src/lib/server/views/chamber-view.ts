@@ -5,6 +5,8 @@
  */
 import type { Knex } from 'knex';
 import { ewma, forecastCrossing, type CrossingForecast } from '../../monitoring/index.ts';
+import { ewmaChartSd } from '../alarms.ts';
+import type { EwmaReference } from '../baselines.ts';
 import { db } from '../db.ts';
 import { listChambers, type ChamberInfo } from '../fleet-structure.ts';
 import { listMaintenance, MAINTENANCE_KINDS, rfHoursSinceWetClean } from '../maintenance.ts';
@@ -116,7 +118,12 @@ export interface ChamberSeries {
 	ewmaQ: (number | null)[];
 	ewmaT2Upper: (number | null)[];
 	ewmaQUpper: (number | null)[];
-	ewma: { lambda: number; L: number };
+	/**
+	 * The EWMA's λ and L, and for the newest baseline segment the factor F its in-control variance was
+	 * widened by for autocorrelated wafers (Zhang 1998; limits use σ√F); null where the baseline kept
+	 * no ACF (older baselines: independent-wafer limits) or has no reference.
+	 */
+	ewma: { lambda: number; L: number; varianceFactor: { t2: number | null; q: number | null } };
 	forecasts: SeriesForecast[];
 	baselines: { id: number; version: number; status: string; approvedAt: number | null; retiredAt: number | null; trainFrom: number | null; trainTo: number | null }[];
 	maintenance: { id: number; at: number; kind: string; label: string; comment: string | null; by: string | null }[];
@@ -145,7 +152,7 @@ export async function getChamberSeries(q: { chamberId: number; recipeStepId: num
 		.whereIn('status', ['active', 'retired'])
 		.orderBy('version')
 		.select('id', 'version', 'status', 'approved_at', 'retired_at', 'train_from', 'train_to', 'summary_json');
-	const refs = new Map<number, { t2: { mean: number; sd: number }; q: { mean: number; sd: number } } | null>();
+	const refs = new Map<number, EwmaReference | null>();
 	for (const b of baselineRows) {
 		try {
 			refs.set(b.id, JSON.parse(b.summary_json).ewmaReference ?? null);
@@ -161,6 +168,7 @@ export async function getChamberSeries(q: { chamberId: number; recipeStepId: num
 	const upT2 = new Array<number>(n).fill(NaN);
 	const upQ = new Array<number>(n).fill(NaN);
 	const forecasts: SeriesForecast[] = [];
+	const varianceFactor: { t2: number | null; q: number | null } = { t2: null, q: null };
 	// One EWMA per baseline segment: each baseline has its own in-control level.
 	let s0 = 0;
 	while (s0 < n) {
@@ -175,7 +183,9 @@ export async function getChamberSeries(q: { chamberId: number; recipeStepId: num
 			const m = ref?.[stat === 'T²' ? 't2' : 'q'];
 			if (!m || !(m.sd > 0) || !Number.isFinite(m.mean)) continue;
 			const series = seg.map((r) => r[field] as number);
-			const chart = ewma(series, { lambda: policy.ewmaLambda, L: policy.ewmaL, mean: m.mean, sd: m.sd });
+			const { sd, inflation } = ewmaChartSd(m, ref?.n, policy.ewmaLambda);
+			if (s1 === n) varianceFactor[stat === 'T²' ? 't2' : 'q'] = inflation?.factor ?? null;
+			const chart = ewma(series, { lambda: policy.ewmaLambda, L: policy.ewmaL, mean: m.mean, sd });
 			for (let i = 0; i < seg.length; i++) {
 				out[s0 + i] = chart.values[i];
 				up[s0 + i] = chart.upper[i];
@@ -220,7 +230,7 @@ export async function getChamberSeries(q: { chamberId: number; recipeStepId: num
 		ewmaQ: finite(ewmaQ.slice(w)),
 		ewmaT2Upper: finite(upT2.slice(w)),
 		ewmaQUpper: finite(upQ.slice(w)),
-		ewma: { lambda: policy.ewmaLambda, L: policy.ewmaL },
+		ewma: { lambda: policy.ewmaLambda, L: policy.ewmaL, varianceFactor },
 		forecasts,
 		baselines: baselineRows.map((b) => ({
 			id: b.id,
