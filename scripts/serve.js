@@ -94,7 +94,8 @@ function refuse(socket, status, reason, error) {
 }
 
 server.on('clientError', (err, socket) => {
-	if (err.code === 'ECONNRESET' || !socket.writable) return socket.destroy();
+	// A connection reset, or a response already under way on this socket: nothing can be said any more.
+	if (err.code === 'ECONNRESET' || !socket.writable || socket._httpMessage?.headersSent) return socket.destroy();
 	if (err.code === 'HPE_HEADER_OVERFLOW')
 		return refuse(socket, 431, 'Request Header Fields Too Large', `headers: the request's headers exceed ${maxHeaderKb} KB (the server's limit); send fewer or shorter headers or cookies`);
 	if (err.code === 'ERR_HTTP_REQUEST_TIMEOUT') return refuse(socket, 408, 'Request Timeout', 'request: the request was not received in time');
