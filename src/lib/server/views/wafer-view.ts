@@ -24,7 +24,7 @@ import { getModel } from '../baselines.ts';
 import { db } from '../db.ts';
 import { decodeValues } from '../feature-values.ts';
 import { getCatalog, type CatalogFeature } from '../wafer-steps.ts';
-import { lastAcks, type AckSummary } from './alarm-queue.ts';
+import { lastAcks, type AckSummary, type QueueAlarm } from './alarm-queue.ts';
 const TOP = 15;
 const HIGHLIGHT = 8;
 
@@ -43,20 +43,13 @@ export interface Contributor {
 	unit: string | null;
 }
 
-export interface WaferAlarm {
-	id: number;
+/** An alarm as the wafer page lists it: the queue's fields it shows, with the latest acknowledgement. */
+export type WaferAlarm = Pick<QueueAlarm, 'id' | 'ruleLabel' | 'state' | 'openedAt' | 'lastSeenAt' | 'waferCount' | 'worstRatio' | 'worstWaferStepId'> & {
 	rule: string;
-	ruleLabel: string;
 	severity: string;
-	state: 'open' | 'acknowledged' | 'closed';
-	openedAt: number;
-	lastSeenAt: number;
-	waferCount: number;
-	worstRatio: number | null;
-	worstWaferStepId: number | null;
 	/** the latest acknowledgement (who, cause, when), for an alarm that is no longer open */
 	acknowledgement: (AckSummary & { dispositionLabel: string | null }) | null;
-}
+};
 
 export interface WaferView {
 	id: number;
