@@ -24,6 +24,10 @@ describe('sign-in in the browser', () => {
 			const nav = await page.getByRole('navigation', { name: 'Sections' }).textContent();
 			if (role === 'admin') expect(nav).toContain('People');
 			else expect(nav).not.toContain('People');
+			// viewers reach feature-set changes from the bar; engineers and admins through Uploads
+			if (role === 'viewer') expect(nav).toMatch(/Feature sets/);
+			else expect(nav).toMatch(/Uploads/);
+			if (role !== 'viewer') expect(nav).not.toMatch(/Feature sets/);
 			await screenshot(page, `shell-${role}`);
 			await page.getByRole('button', { name: 'Sign out' }).click();
 			await page.waitForURL(`${base()}/sign-in`);

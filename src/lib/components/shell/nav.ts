@@ -7,6 +7,8 @@ export interface NavItem {
 	role: Role;
 	/** Route ids that count as being in this section. */
 	match: string[];
+	/** Shown to this role alone (a page that higher roles reach from another section). */
+	only?: Role;
 }
 
 // Lockstep's own section names.
@@ -17,6 +19,8 @@ export const NAV: NavItem[] = [
 	{ href: '/baselines', label: 'Baselines', role: 'viewer', match: ['/baselines'] },
 	{ href: '/maintenance', label: 'Maintenance', role: 'viewer', match: ['/maintenance'] },
 	{ href: '/uploads', label: 'Uploads', role: 'engineer', match: ['/uploads'] },
+	// Viewers may read feature-set changes but have no uploads page to reach them from.
+	{ href: '/uploads/feature-sets', label: 'Feature sets', role: 'viewer', only: 'viewer', match: ['/uploads/feature-sets'] },
 	{ href: '/admin/policy', label: 'Policy', role: 'admin', match: ['/admin/policy', '/admin/cause-codes'] },
 	{ href: '/admin/users', label: 'People', role: 'admin', match: ['/admin/users'] },
 	{ href: '/admin/tokens', label: 'Tokens', role: 'admin', match: ['/admin/tokens'] },
