@@ -1,6 +1,8 @@
 /**
  * The EWMA rule's limits widened for autocorrelated wafers (Zhang 1998, EWMAST): what a baseline
- * stores (the ACF of its cross-validated golden ratios in processing order) and how the alarm rules
+ * stores (the ACF of its ratios in processing order; here every wafer of the training window is
+ * golden, so the consecutive series is the cross-validated golden one — the sparse case is in
+ * ewma-consecutive-acf.test.ts) and how the alarm rules
  * and the chamber chart use it; baselines stored without an ACF keep the independent-wafer limits.
  */
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
@@ -132,6 +134,9 @@ describe('a baseline keeps the ACF of its cross-validated golden ratios', () => 
 			q: ewmaInflation(policy.ewmaLambda, ref.q.acf!, 80).factor
 		};
 		expect(s.ewma.varianceFactor).toEqual(F);
+		// Every wafer of this training window is golden, so the consecutive series is the golden one
+		// and the caption names that source and its length.
+		expect(s.ewma.acf).toEqual({ source: 'consecutive', n: 80 });
 		expect(Math.max(F.t2, F.q)).toBeGreaterThan(1.2); // the lot effect is seen
 		// Steady-state limit: mean + L σ √F √(λ/(2 − λ)) (Zhang 1998; Roberts 1959).
 		const last = s.ewmaQUpper.length - 1;

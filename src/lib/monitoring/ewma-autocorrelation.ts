@@ -1,4 +1,4 @@
-import { bartlettStandardErrors } from './autocorrelation';
+import { bartlettStandardErrors, sampleAutocorrelation } from './autocorrelation';
 
 /** Zhang's truncation horizon M: the sum runs to lag M, and Zhang (1998) asks for M ≥ 25. */
 export const EWMAST_M = 25;
@@ -130,4 +130,49 @@ export function ewmaInflation(
 	const unclipped = ewmastVarianceFactor(lambda, Array.prototype.slice.call(acf, 0, used), M);
 	if (unclipped < 1) return { factor: 1, unclipped, lagsUsed: used, reason: 'negative' };
 	return { factor: unclipped, unclipped, lagsUsed: used, reason: 'autocorrelated' };
+}
+
+/** A sample ACF with the number of observed values it came from. */
+export interface GappedAutocorrelation {
+	/** r_1 … r_K (index 0 holds r_1) */
+	acf: Float64Array;
+	/** values that were observed (not NaN): the n to judge the ACF by */
+	observed: number;
+}
+
+/**
+ * Sample ACF of a series in time order in which some positions are missing (NaN), each value kept at
+ * its own position so that lag k still means "k wafers apart":
+ *
+ *   r_k = Σ_{t: x_t and x_{t+k} observed} d_t d_{t+k} / Σ_{t observed} d_t²,  d_t = x_t − x̄_observed.
+ *
+ * With nothing missing this is the Box–Jenkins estimator of {@link sampleAutocorrelation}. Missing
+ * positions take the observed mean, whose deviation is 0, so they add nothing to either sum: the
+ * function is sampleAutocorrelation of the mean-filled series (derivation; the same treatment of
+ * gaps as an amplitude-modulated series, Parzen 1963, "On spectral analysis with missing
+ * observations and amplitude modulation", Sankhyā A 25 — reference from memory). It is what the
+ * EWMA limits need when a few wafers of a run are left out (seasoning, an alarm): the EWMA runs
+ * over consecutive wafers, so its variance depends on ρ at consecutive-wafer lags (Zhang 1998), and
+ * closing the gaps would shift the lags of every pair across one.
+ *
+ * @param series values in time order, NaN where a value is missing (±∞ is refused)
+ * @param maxLag K, an integer 1 ≤ K ≤ series.length − 1
+ * @returns r_1 … r_K and the number of observed values
+ * @throws RangeError on fewer than 3 observed values, a bad K, ±∞ or a constant observed series
+ * @example gappedAutocorrelation([1, NaN, 3, 4, 5], 1).acf // → [(−0.25·0.75 + 0.75·1.75) / 8.75 ≈ 0.129]
+ */
+export function gappedAutocorrelation(series: ArrayLike<number>, maxLag: number): GappedAutocorrelation {
+	let sum = 0;
+	let observed = 0;
+	for (let t = 0; t < series.length; t++) {
+		const v = series[t];
+		if (Number.isNaN(v)) continue;
+		if (!Number.isFinite(v)) throw new RangeError(`value ${t} is not finite`);
+		sum += v;
+		observed++;
+	}
+	if (observed < 3) throw new RangeError(`the autocorrelation needs at least 3 observed values, got ${observed}`);
+	const mean = sum / observed;
+	const filled = Float64Array.from({ length: series.length }, (_, t) => (Number.isNaN(series[t]) ? mean : series[t]));
+	return { acf: sampleAutocorrelation(filled, maxLag), observed };
 }

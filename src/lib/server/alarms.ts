@@ -5,7 +5,7 @@
  * `run` — k of the last m wafer-steps above a warning limit (adapted from the Western Electric
  * Statistical Quality Control Handbook, 1956: "2 of 3 beyond 2σ"); `ewma` — the EWMA of the T² or Q
  * ratio above its upper limit (Roberts 1959; Lucas & Saccucci 1990), its in-control variance widened
- * by the golden wafers' autocorrelation (Zhang 1998, see {@link ewmaChartSd}); `fleet` — the chamber sits apart
+ * by the wafers' autocorrelation (Zhang 1998, see {@link ewmaChartSd}); `fleet` — the chamber sits apart
  * from the fleet (modified z-score, Iglewicz & Hoaglin 1993).
  *
  * One live alarm (open or acknowledged) per chamber × recipe step × rule: while the condition lasts the
@@ -54,7 +54,8 @@ export interface BaselineLimits {
 
 /**
  * The σ an EWMA chart of one ratio series uses: the golden sd, widened to sd · √F when the baseline
- * kept the golden series' ACF. F is Zhang's (1998) EWMAST variance factor at the policy's λ, summed
+ * kept an ACF (from the consecutive in-control wafers of its training window, or the golden wafers;
+ * `n` is the length of that series, see EwmaReference in baselines.ts). F is Zhang's (1998) EWMAST variance factor at the policy's λ, summed
  * over the lags while r_k stays positive, never below 1 (`ewmaInflation`, which says why). Wafers of one lot
  * share incoming film, and the chamber wanders between lots, so successive ratios are positively
  * correlated and the independent-data limits are too tight. Baselines stored before the ACF was

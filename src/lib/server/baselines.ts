@@ -7,7 +7,6 @@ import {
 	fitBaseline,
 	modelFromBlob,
 	modelToBlob,
-	sampleAutocorrelation,
 	scoreBatch,
 	EWMAST_M,
 	type BaselineModel,
@@ -15,10 +14,11 @@ import {
 } from '../monitoring/index.ts';
 import { mean, sampleStandardDeviation } from 'simple-statistics';
 import { crossValidatedScores } from '../monitoring/cross-validation.ts';
+import { gappedAutocorrelation } from '../monitoring/ewma-autocorrelation.ts';
 import { db } from './db.ts';
 import { getSetting } from './settings.ts';
 import { now } from './time.ts';
-import { getCatalog, getWaferStepsByIds, getWaferStepsInRange } from './wafer-steps.ts';
+import { getCatalog, getWaferStepsByIds, getWaferStepsInRange, type StoredWaferStep } from './wafer-steps.ts';
 
 export class BaselineError extends Error {
 	constructor(
@@ -112,7 +112,10 @@ export interface BaselineSummary {
 	golden: { id: number; waferId: string; t2: number; q: number }[];
 	qMethod: string;
 	route: string;
-	/** In-control mean and sd of T²/limit and Q/limit of new wafers (cross-validated golden): the EWMA charts' reference. */
+	/**
+	 * In-control mean and sd of T²/limit and Q/limit of new wafers (cross-validated golden), and the
+	 * ACF that widens the EWMA limits (consecutive wafers of the training window, or golden): the EWMA charts' reference.
+	 */
 	ewmaReference: EwmaReference | null;
 }
 
@@ -121,41 +124,151 @@ export interface EwmaStatReference {
 	mean: number;
 	sd: number;
 	/**
-	 * Sample autocorrelation r_1 … r_M of the cross-validated golden ratios in processing order
-	 * (M = min(25, n − 1): Zhang's horizon, EWMAST_M), from which the chart widens its limits for
-	 * correlated wafers. Absent on baselines stored before it was kept (their charts assume
-	 * independent wafers), and when the series is constant.
+	 * Sample autocorrelation r_1 … r_M of the ratio in processing order (M = min(25, n − 1): Zhang's
+	 * horizon, EWMAST_M), from which the chart widens its limits for correlated wafers: from the
+	 * consecutive wafers of the training window, or from the golden wafers alone (see
+	 * {@link EwmaReference.acfSource}). Absent on baselines stored before it was kept (their charts
+	 * assume independent wafers), and when the series is constant.
 	 */
 	acf?: number[];
 }
+
+/** Where a baseline's ACF came from. */
+export type AcfSource = 'consecutive' | 'golden';
 
 export interface EwmaReference {
 	t2: EwmaStatReference;
 	q: EwmaStatReference;
 	folds: number;
-	/** Golden wafers the reference (and its ACF) came from; absent on older baselines. */
+	/**
+	 * Length of the series the ACF came from (observed wafers): the consecutive in-control wafers of
+	 * the training window, or the golden wafers (then the golden count, as on every baseline stored
+	 * before `acfSource`). Absent on older baselines.
+	 */
 	n?: number;
+	/** 'consecutive' or 'golden' (see {@link CONSECUTIVE_ACF_MIN}); absent on older baselines, whose ACF is golden. */
+	acfSource?: AcfSource;
 }
 
 /**
- * The EWMA charts' in-control reference: mean, sd and ACF of the golden wafers' cross-validated
- * T²/limit and Q/limit. `rows` must be in processing order (getWaferStepsByIds sorts by
- * processed_at, then id), since the ACF is only meaningful along time.
+ * Fewest in-control consecutive wafers for the ACF to come from them; below it (or for a fleet
+ * baseline, which has no one chamber's run) the golden wafers' own ACF is kept. 50 is the length
+ * Box, Jenkins & Reinsel (2008, ch. 2; figure from memory) give for a useful ACF estimate. Since
+ * every chosen golden wafer belongs to the series, the fallback only happens when the golden
+ * wafers are fewer than 50 and almost the whole window.
  */
-function ewmaReference(rows: Float64Array[], model: BaselineModel): EwmaReference | null {
+export const CONSECUTIVE_ACF_MIN = 50;
+/** Most wafers the consecutive series keeps: the newest of a longer window (25 lags need far fewer). */
+export const CONSECUTIVE_ACF_MAX = 5000;
+
+/** One ratio series over the training window in processing order, NaN where a wafer is left out. */
+interface WindowSeries {
+	t2: Float64Array;
+	q: Float64Array;
+}
+
+/**
+ * The ratio series of the consecutive wafers of a chamber baseline's training window: every
+ * wafer-step of the chamber × recipe step processed from the first to the last chosen golden wafer
+ * (the baseline's train_from..train_to), in processing order (processed_at, then id). Chosen golden
+ * wafers carry their cross-validated ratios; the other wafers are scored out of sample against the
+ * new model. Left out (NaN, kept at their positions so lags stay wafer counts): the wafers the
+ * golden candidate list leaves out by default ({@link goldenCandidates}: inside an open alarm, or in
+ * the seasoning window after a wet clean) unless the engineer chose them as golden, and wafers of
+ * another feature set. What remains is the in-control production run between the golden wafers.
+ *
+ * Why: the EWMA runs over consecutive wafers, so its variance depends on the ACF at
+ * consecutive-wafer lags (Zhang 1998; derivation in ewmastVarianceFactor). Golden wafers are picked
+ * sparsely (a couple a lot, then about every 5th wafer), so lag 1 of the golden series is about
+ * lag 5 of production, where the lot-to-lot correlation has mostly died away: the golden-only ACF
+ * measures ρ at the wrong lags and under-states F (derivation; the sparse picking is common practice).
+ */
+async function windowSeries(
+	chamberId: number,
+	recipeStepId: number,
+	setVersion: number,
+	golden: StoredWaferStep[],
+	cv: { t2Ratio: Float64Array; qRatio: Float64Array },
+	model: BaselineModel,
+	k: Knex
+): Promise<WindowSeries> {
+	const from = golden[0].processedAt;
+	const to = golden[golden.length - 1].processedAt;
+	const goldenAt = new Map(golden.map((w, i) => [w.id, i]));
+	const all = await goldenCandidates({ chamberId, recipeStepId, from, to }, k);
+	const window = all.length > CONSECUTIVE_ACF_MAX ? all.slice(-CONSECUTIVE_ACF_MAX) : all;
+	const n = window.length;
+	const t2 = new Float64Array(n).fill(NaN);
+	const q = new Float64Array(n).fill(NaN);
+	const toScore: number[] = [];
+	window.forEach((c, i) => {
+		const g = goldenAt.get(c.id);
+		if (g !== undefined) {
+			t2[i] = cv.t2Ratio[g];
+			q[i] = cv.qRatio[g];
+		} else if (c.excluded === null) toScore.push(i);
+	});
+	const rows = await getWaferStepsByIds(toScore.map((i) => window[i].id), k);
+	const byId = new Map(rows.map((r) => [r.id, r]));
+	const keep = toScore.filter((i) => byId.get(window[i].id)?.featureSetVersion === setVersion);
+	if (keep.length > 0) {
+		const s = scoreBatch(model, keep.map((i) => byId.get(window[i].id)!.values));
+		keep.forEach((i, j) => {
+			t2[i] = s.t2[j] / model.limits.t2;
+			q[i] = s.q[j] / model.limits.q;
+		});
+	}
+	return { t2, q };
+}
+
+/**
+ * The EWMA charts' in-control reference. Mean and sd: the golden wafers' cross-validated T²/limit
+ * and Q/limit (the in-control level, unchanged). ACF, for the variance factor F: from the
+ * consecutive in-control wafers of the training window ({@link windowSeries}) when at least
+ * {@link CONSECUTIVE_ACF_MIN} of them are observed (`acfSource: 'consecutive'`), else from the
+ * golden ratios in processing order (`'golden'`). `golden` must be in processing order
+ * (getWaferStepsByIds sorts by processed_at, then id), since the ACF is only meaningful along time.
+ * `window` is null for a fleet baseline (no single chamber's run).
+ */
+async function ewmaReference(
+	golden: StoredWaferStep[],
+	model: BaselineModel,
+	window: { chamberId: number; recipeStepId: number; setVersion: number } | null,
+	k: Knex
+): Promise<EwmaReference | null> {
+	const rows = golden.map((w) => w.values);
 	let cv: ReturnType<typeof crossValidatedScores>;
 	try {
 		cv = crossValidatedScores(rows, model, 5);
 	} catch {
 		return null; // too few golden wafers to cross-validate: the EWMA rule stays off for this baseline
 	}
-	const lags = Math.min(EWMAST_M, rows.length - 1);
-	const m = (a: Float64Array): EwmaStatReference => {
-		const ref: EwmaStatReference = { mean: mean(Array.from(a)), sd: sampleStandardDeviation(Array.from(a)) };
-		if (ref.sd > 0) ref.acf = Array.from(sampleAutocorrelation(a, lags));
-		return ref;
+	const level = (a: Float64Array): EwmaStatReference => ({ mean: mean(Array.from(a)), sd: sampleStandardDeviation(Array.from(a)) });
+	const t2 = level(cv.t2Ratio);
+	const qRef = level(cv.qRatio);
+	let acfSource: AcfSource = 'golden';
+	let series: WindowSeries = { t2: cv.t2Ratio, q: cv.qRatio };
+	let n = rows.length;
+	if (window) {
+		const w = await windowSeries(window.chamberId, window.recipeStepId, window.setVersion, golden, cv, model, k);
+		const observed = w.t2.reduce((c, v) => c + (Number.isNaN(v) ? 0 : 1), 0);
+		if (observed >= CONSECUTIVE_ACF_MIN) {
+			acfSource = 'consecutive';
+			series = w;
+			n = observed;
+		}
+	}
+	const lags = Math.min(EWMAST_M, series.t2.length - 1);
+	const acfOf = (a: Float64Array): number[] | undefined => {
+		try {
+			return Array.from(gappedAutocorrelation(a, lags).acf);
+		} catch {
+			return undefined; // a constant series: no ACF, the chart assumes independent wafers
+		}
 	};
-	return { t2: m(cv.t2Ratio), q: m(cv.qRatio), folds: cv.folds, n: rows.length };
+	if (t2.sd > 0) t2.acf = acfOf(series.t2);
+	if (qRef.sd > 0) qRef.acf = acfOf(series.q);
+	return { t2, q: qRef, folds: cv.folds, n, acfSource };
 }
 
 /** Fit and store a draft baseline from chosen wafer-steps. Nothing is stored when the fit fails. */
@@ -203,7 +316,12 @@ export async function createDraftBaseline(req: DraftRequest, k: Knex = db()): Pr
 		golden: wafers.map((w, i) => ({ id: w.id, waferId: w.waferId, t2: self.t2[i], q: self.q[i] })),
 		qMethod: model.qMethod,
 		route: model.route,
-		ewmaReference: ewmaReference(wafers.map((w) => w.values), model)
+		ewmaReference: await ewmaReference(
+			wafers,
+			model,
+			scope === 'chamber' && req.chamberId !== null ? { chamberId: req.chamberId, recipeStepId: req.recipeStepId, setVersion } : null,
+			k
+		)
 	};
 	const t = now();
 	return k.transaction(async (trx) => {

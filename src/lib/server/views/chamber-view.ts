@@ -123,7 +123,13 @@ export interface ChamberSeries {
 	 * widened by for autocorrelated wafers (Zhang 1998; limits use σ√F); null where the baseline kept
 	 * no ACF (older baselines: independent-wafer limits) or has no reference.
 	 */
-	ewma: { lambda: number; L: number; varianceFactor: { t2: number | null; q: number | null } };
+	ewma: {
+		lambda: number;
+		L: number;
+		varianceFactor: { t2: number | null; q: number | null };
+		/** where the newest segment's ACF came from, and the length of that series (null with no F) */
+		acf: { source: 'consecutive' | 'golden'; n: number } | null;
+	};
 	forecasts: SeriesForecast[];
 	baselines: { id: number; version: number; status: string; approvedAt: number | null; retiredAt: number | null; trainFrom: number | null; trainTo: number | null }[];
 	maintenance: { id: number; at: number; kind: string; label: string; comment: string | null; by: string | null }[];
@@ -169,6 +175,7 @@ export async function getChamberSeries(q: { chamberId: number; recipeStepId: num
 	const upQ = new Array<number>(n).fill(NaN);
 	const forecasts: SeriesForecast[] = [];
 	const varianceFactor: { t2: number | null; q: number | null } = { t2: null, q: null };
+	let acf: ChamberSeries['ewma']['acf'] = null;
 	// One EWMA per baseline segment: each baseline has its own in-control level.
 	let s0 = 0;
 	while (s0 < n) {
@@ -185,6 +192,7 @@ export async function getChamberSeries(q: { chamberId: number; recipeStepId: num
 			const series = seg.map((r) => r[field] as number);
 			const { sd, inflation } = ewmaChartSd(m, ref?.n, policy.ewmaLambda);
 			if (s1 === n) varianceFactor[stat === 'T²' ? 't2' : 'q'] = inflation?.factor ?? null;
+			if (s1 === n && inflation && ref?.n) acf = { source: ref.acfSource ?? 'golden', n: ref.n };
 			const chart = ewma(series, { lambda: policy.ewmaLambda, L: policy.ewmaL, mean: m.mean, sd });
 			for (let i = 0; i < seg.length; i++) {
 				out[s0 + i] = chart.values[i];
@@ -230,7 +238,7 @@ export async function getChamberSeries(q: { chamberId: number; recipeStepId: num
 		ewmaQ: finite(ewmaQ.slice(w)),
 		ewmaT2Upper: finite(upT2.slice(w)),
 		ewmaQUpper: finite(upQ.slice(w)),
-		ewma: { lambda: policy.ewmaLambda, L: policy.ewmaL, varianceFactor },
+		ewma: { lambda: policy.ewmaLambda, L: policy.ewmaL, varianceFactor, acf },
 		forecasts,
 		baselines: baselineRows.map((b) => ({
 			id: b.id,
