@@ -4,13 +4,13 @@
  * once, as after an uninterrupted run, and the file that was committed before the kill is not
  * duplicated.
  */
-import { spawn } from 'node:child_process';
 import fs from 'node:fs';
 import path from 'node:path';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { openDb, migrateLatest } from '../../../src/lib/server/db.ts';
 import { addChambers, csv, HEADER, rows } from './helpers.ts';
 import os from 'node:os';
+import { killWhen, spawnTsx } from '../../helpers/crash.ts';
 
 const ROWS = 24_000;
 const OES = Array.from({ length: 120 }, (_, j) => 300 + j * 5); // 300–895 nm, every 5 nm
@@ -41,17 +41,7 @@ beforeAll(async () => {
 });
 afterAll(() => fs.rmSync(dir, { recursive: true, force: true }));
 
-function worker() {
-	const child = spawn(process.execPath, ['--import', 'tsx', 'jobs/ingest-inbox.ts', '--progress'], {
-		env: { ...process.env, LOCKSTEP_DATA_DIR: dir, LOCKSTEP_DB_FILE: dbFile, LOCKSTEP_INBOX_SETTLE_MS: '0' },
-		stdio: ['ignore', 'pipe', 'pipe']
-	});
-	let out = '';
-	child.stdout.on('data', (d) => (out += d));
-	child.stderr.on('data', (d) => (out += d));
-	const exited = new Promise<{ code: number | null; signal: NodeJS.Signals | null }>((r) => child.on('exit', (code, signal) => r({ code, signal })));
-	return { child, exited, output: () => out };
-}
+const worker = () => spawnTsx(['jobs/ingest-inbox.ts', '--progress'], { LOCKSTEP_DATA_DIR: dir, LOCKSTEP_DB_FILE: dbFile, LOCKSTEP_INBOX_SETTLE_MS: '0' });
 
 async function counts() {
 	const k = openDb({ client: 'better-sqlite3', filename: dbFile, connectionString: null });
@@ -70,20 +60,8 @@ describe('inbox worker killed mid-file', () => {
 	it('loses nothing and duplicates nothing after a restart', async () => {
 		const w = worker();
 		// Wait until the worker is well inside the large file, then kill it without warning.
-		await new Promise<void>((resolve, reject) => {
-			const timer = setInterval(() => {
-				const m = [...w.output().matchAll(/progress b-large\.csv processing (\d+)/g)].pop();
-				if (m && Number(m[1]) >= 2000) {
-					clearInterval(timer);
-					w.child.kill('SIGKILL');
-					resolve();
-				}
-			}, 5);
-			w.exited.then(() => {
-				clearInterval(timer);
-				reject(new Error(`worker ended before it could be killed:\n${w.output()}`));
-			});
-		});
+		const sent = await killWhen(w, () => Number([...w.log().matchAll(/progress b-large\.csv processing (\d+)/g)].pop()?.[1] ?? 0) >= 2000, { pollMs: 5 });
+		expect(sent, `worker ended before it could be killed:\n${w.log()}`).toBe(true);
 		const killed = await w.exited;
 		expect(killed.signal).toBe('SIGKILL');
 		const mid = await counts();
@@ -93,7 +71,7 @@ describe('inbox worker killed mid-file', () => {
 
 		const again = worker();
 		const done = await again.exited;
-		expect(done.code, again.output()).toBe(0);
+		expect(done.code, again.log()).toBe(0);
 		const after = await counts();
 		expect(after.large).toBe(ROWS);
 		expect(after.total).toBe(ROWS + 30);
