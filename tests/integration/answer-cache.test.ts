@@ -7,7 +7,7 @@
 import path from 'node:path';
 import Database from 'better-sqlite3';
 import { afterAll, beforeAll, beforeEach, describe, expect, it } from 'vitest';
-import { answerJson, cachedAnswer, clearAnswers, dataVersion, noteLocalWrite, putAnswer } from '../../src/lib/server/answer-cache.ts';
+import { answerJson, answersInFlight, cachedAnswer, clearAnswers, dataVersion, noteLocalWrite, putAnswer } from '../../src/lib/server/answer-cache.ts';
 import { useTempDb } from '../helpers/temp-db.ts';
 
 let env: Awaited<ReturnType<typeof useTempDb>>;
@@ -74,5 +74,36 @@ describe('answer cache', () => {
 		expect((await answerJson('g', 60_000, compute, env.k)).status).toBe(404);
 		await answerJson('g', 60_000, compute, env.k);
 		expect(n).toBe(2);
+	});
+});
+
+describe('answer cache under a burst of misses', () => {
+	it('concurrent requests for one key and version share one computation; other keys compute apart', async () => {
+		clearAnswers();
+		noteLocalWrite(); // a fresh version, as right after a commit
+		let computed = 0;
+		const slow = async () => {
+			computed++;
+			await new Promise((r) => setTimeout(r, 30));
+			return { status: 200, value: { n: computed } };
+		};
+		const burst = await Promise.all(Array.from({ length: 20 }, () => answerJson('burst', 60_000, slow, env.k)));
+		expect(computed).toBe(1);
+		expect(new Set(await Promise.all(burst.map((r) => r.text())))).toEqual(new Set(['{"n":1}']));
+		expect(answersInFlight()).toBe(0);
+		await Promise.all([answerJson('other-a', 60_000, slow, env.k), answerJson('other-b', 60_000, slow, env.k)]);
+		expect(computed).toBe(3);
+	});
+
+	it('a failed computation is not shared with later requests', async () => {
+		let calls = 0;
+		const failing = async () => {
+			calls++;
+			throw new Error('database went away');
+		};
+		await expect(answerJson('fails', 60_000, failing, env.k)).rejects.toThrow(/went away/);
+		await expect(answerJson('fails', 60_000, failing, env.k)).rejects.toThrow(/went away/);
+		expect(calls).toBe(2);
+		expect(answersInFlight()).toBe(0);
 	});
 });

@@ -19,6 +19,8 @@
  *
  * The version is read before an answer is computed and stored with it, so an answer computed while a
  * commit landed is never served after it. Bounded: at most `MAX_BYTES` of bodies; the oldest go first.
+ * Concurrent misses of one key at one version share a single computation (after a commit every open
+ * page misses at once).
  */
 import type { Knex } from 'knex';
 import { db } from './db.ts';
@@ -100,10 +102,28 @@ export async function answerJson(key: string, maxAgeMs: number, compute: () => P
 	const version = await dataVersion(k, at);
 	const hit = cachedAnswer(key, version, at, maxAgeMs);
 	if (hit !== null) return jsonBody(hit);
-	const { status, value } = await compute();
-	const body = JSON.stringify(value);
-	if (status === 200) putAnswer(key, version, at, body);
+	// One computation per key and version: right after a commit every poller misses at once, and they
+	// wait for the first one's answer instead of each computing the same thing.
+	const flightKey = `${version}\u0000${key}`;
+	let flight = inFlight.get(flightKey);
+	if (!flight) {
+		flight = (async () => {
+			const { status, value } = await compute();
+			const body = JSON.stringify(value);
+			if (status === 200) putAnswer(key, version, at, body);
+			return { status, body };
+		})().finally(() => inFlight.delete(flightKey));
+		inFlight.set(flightKey, flight);
+	}
+	const { status, body } = await flight;
 	return jsonBody(body, status);
+}
+
+const inFlight = new Map<string, Promise<{ status: number; body: string }>>();
+
+/** How many computations are under way (tests). */
+export function answersInFlight(): number {
+	return inFlight.size;
 }
 
 /** A JSON response of a serialised body, never cached by the browser (the pages poll for fresh data). */
