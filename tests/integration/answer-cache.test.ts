@@ -107,3 +107,18 @@ describe('answer cache under a burst of misses', () => {
 		expect(answersInFlight()).toBe(0);
 	});
 });
+
+describe('answer cache bound', () => {
+	it('keeps at most 32 Mi characters of bodies: the oldest go first, an oversize body is not kept', () => {
+		clearAnswers();
+		const v = 'bound:1';
+		expect(cachedAnswer('probe', v, 0, 60_000)).toBeNull(); // the store moves to this version
+		const big = 'x'.repeat(4 * 1024 * 1024 - 16); // just under an eighth of the bound
+		for (let i = 0; i < 9; i++) putAnswer(`big-${i}`, v, i, big);
+		expect(cachedAnswer('big-0', v, 10, 60_000)).toBeNull(); // evicted: nine would pass 32 Mi
+		for (let i = 1; i < 9; i++) expect(cachedAnswer(`big-${i}`, v, 10, 60_000)).not.toBeNull();
+		putAnswer('huge', v, 11, 'y'.repeat(4 * 1024 * 1024 + 1));
+		expect(cachedAnswer('huge', v, 12, 60_000)).toBeNull();
+		clearAnswers();
+	});
+});

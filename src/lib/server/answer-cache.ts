@@ -18,7 +18,8 @@
  *   an answer there is at most 5 s old (what the heatmap promised before this cache existed).
  *
  * The version is read before an answer is computed and stored with it, so an answer computed while a
- * commit landed is never served after it. Bounded: at most `MAX_BYTES` of bodies; the oldest go first.
+ * commit landed is never served after it. Bounded: at most `MAX_CHARS` characters of bodies (32 Mi:
+ * 32–64 MB, as V8 keeps a string in one or two bytes a character); the oldest go first.
  * Concurrent misses of one key at one version share a single computation (after a commit every open
  * page misses at once).
  */
@@ -26,13 +27,13 @@ import type { Knex } from 'knex';
 import { db } from './db.ts';
 import { now } from './time.ts';
 
-const MAX_BYTES = 64 * 1024 * 1024;
+const MAX_CHARS = 32 * 1024 * 1024;
 const PG_STEP_MS = 5_000;
 const enabled = process.env.LOCKSTEP_ANSWER_CACHE !== 'off';
 
 let localWrites = 0;
 let storedVersion = '';
-let bytes = 0;
+let chars = 0;
 const store = new Map<string, { at: number; version: string; body: string }>();
 
 /** This process changed the database (called after every non-GET request). */
@@ -52,7 +53,7 @@ export function cachedAnswer(key: string, version: string, at: number, maxAgeMs:
 	if (version !== storedVersion) {
 		// Everything stored belongs to an older version: drop it all at once.
 		store.clear();
-		bytes = 0;
+		chars = 0;
 		storedVersion = version;
 		return null;
 	}
@@ -66,23 +67,23 @@ export function putAnswer(key: string, version: string, at: number, body: string
 	if (version !== storedVersion) return; // the data changed while this answer was computed
 	const old = store.get(key);
 	if (old) {
-		bytes -= old.body.length;
+		chars -= old.body.length;
 		store.delete(key);
 	}
-	if (body.length > MAX_BYTES / 8) return;
+	if (body.length > MAX_CHARS / 8) return;
 	for (const [k, v] of store) {
-		if (bytes + body.length <= MAX_BYTES) break;
+		if (chars + body.length <= MAX_CHARS) break;
 		store.delete(k);
-		bytes -= v.body.length;
+		chars -= v.body.length;
 	}
 	store.set(key, { at, version, body });
-	bytes += body.length;
+	chars += body.length;
 }
 
 /** Forget everything (tests). */
 export function clearAnswers(): void {
 	store.clear();
-	bytes = 0;
+	chars = 0;
 	storedVersion = '';
 }
 
