@@ -170,6 +170,11 @@ async function reviewAlarms(k: Knex, s: DemoScenario, engineers: string[], befor
 			report.acknowledged++;
 			continue;
 		}
+		if (ep?.kind === 'rf_match_wear') {
+			await acknowledgeAlarms(k, { alarmIds: [a.id], userId: user, causeCode: 'HW-RFM', disposition: 'continue', comment: 'Reflected power creeping up, DC bias smaller, lines down together: RF match service requested, running while reflected power stays in spec.' });
+			report.acknowledged++;
+			continue; // the wear goes on: left acknowledged, not closed
+		}
 		if (ep?.kind === 'part_swap_offset') {
 			await acknowledgeAlarms(k, { alarmIds: [a.id], userId: user, causeCode: 'HW-SWAP', disposition: 'requalify', comment: 'Focus ring swapped; chamber sits apart from the fleet on Cl and H lines. Matching follow-up opened.' });
 			report.acknowledged++;

@@ -5,10 +5,10 @@ const DAY_MS = 86_400_000;
 const minute = (ms: number) => Math.floor(ms / 60_000) * 60_000;
 
 /**
- * The four injected episodes, placed relative to the window so they exist for any `end`:
+ * The five injected episodes, placed relative to the window so they exist for any `end`:
  * the part swap early (so the chamber has a full month of its own golden wafers after it), the O₂ MFC
- * drift over the second half, the He leak in the third week (ended by a PM) and the air leak in the
- * last days (still open at the end).
+ * drift over the second half, the He leak in the third week (ended by a PM), the RF match wear over
+ * the last week and the air leak in the last days (both still open at the end).
  */
 export function buildEpisodes(startMs: number, endMs: number): DemoEpisode[] {
 	const c = EPISODE_CHAMBERS;
@@ -60,6 +60,20 @@ export function buildEpisodes(startMs: number, endMs: number): DemoEpisode[] {
 				'N2 bands at 337.1, 357.7 and 380.5 (and CN 388.3 in this carbon chemistry) appear and grow wafer by ' +
 				'wafer, O 777.4 and 844.6 rise; Q alarms with the N2 channels as top contributors. ' +
 				"Leak-like signature: the site's gas detection, interlocks and safety procedures are authoritative."
+		},
+		{
+			id: `rf-match-wear-${c.rfMatch}`,
+			chamberCode: c.rfMatch,
+			kind: 'rf_match_wear',
+			start: new Date(minute(endMs - 6.2 * DAY_MS)),
+			end: null,
+			title: `RF match on ${c.rfMatch} wearing: reflected power creeping up`,
+			whatToLookFor:
+				'rf_reflected_w creeps up from its usual ≈ 11 W towards ≈ 40 W in both PGE-14 steps while rf_forward_w ' +
+				'holds its setpoint; the power delivered to the plasma falls by up to ≈ 6 %, so dc_bias_v shrinks in ' +
+				'magnitude (≈ 2–3 %) and nearly every emission line and the continuum drop together by ≈ 3–5 % while the ' +
+				'ratios to Ar 750.4 stay put. rf_reflected_w and dc_bias_v lead the contributions. Wet cleans do not ' +
+				'help: it is the match, not the walls.'
 		}
 	];
 }
@@ -91,6 +105,22 @@ export function airLeakSccm(ep: DemoEpisode, tMs: number, windowEndMs: number): 
 /** Helium escaping past the chuck seal into the chamber, sccm: 0.4 + 3 · progress while active. */
 export function heLeakSccm(ep: DemoEpisode, tMs: number, windowEndMs: number): number {
 	return episodeActive(ep, tMs) ? 0.4 + 3 * episodeProgress(ep, tMs, windowEndMs) : 0;
+}
+
+/**
+ * Extra reflected power of the wearing RF match, as a fraction of forward power: 0.4 % at the start,
+ * growing as 0.4 % + 5.6 % · progress^1.4 (≈ 2 W → ≈ 28 W on top of the healthy ≈ 10 W at 450–500 W),
+ * 0 outside the episode. A match whose tuning elements wear (a vacuum capacitor losing range, a motor
+ * drive slipping) no longer reaches the plasma's impedance, so more of the forward power comes back;
+ * with the generator holding forward power, the plasma gets less (demo model, common practice).
+ */
+export const RF_MATCH_WEAR = { start: 0.004, growth: 0.056, exponent: 1.4 } as const;
+export function rfMatchWearFraction(ep: DemoEpisode, tMs: number, windowEndMs: number): number {
+	if (!episodeActive(ep, tMs)) return 0;
+	return (
+		RF_MATCH_WEAR.start +
+		RF_MATCH_WEAR.growth * Math.pow(episodeProgress(ep, tMs, windowEndMs), RF_MATCH_WEAR.exponent)
+	);
 }
 
 /**

@@ -109,7 +109,8 @@ export const EPISODE_CHAMBERS = {
 	o2Drift: 'DE02-B',
 	airLeak: 'DE03-A',
 	heLeak: 'CE01-C',
-	partSwap: 'CE03-A'
+	partSwap: 'CE03-A',
+	rfMatch: 'CE03-B'
 } as const;
 
 export const WET_CLEAN_COMMENTS = [

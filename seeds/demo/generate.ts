@@ -1,5 +1,12 @@
 import { drawPersonality } from './chamber';
-import { airLeakSccm, episodeActive, heLeakSccm, o2FlowFactor, PART_SWAP_OFFSET } from './episodes';
+import {
+	airLeakSccm,
+	episodeActive,
+	heLeakSccm,
+	o2FlowFactor,
+	PART_SWAP_OFFSET,
+	rfMatchWearFraction
+} from './episodes';
 import { EPISODE_CHAMBERS } from './fab';
 import { buildStepModel, rfOnSeconds, simulateStep, type StepModel, type WaferConditions } from './plasma';
 import { stepPhysics } from './recipes';
@@ -107,6 +114,7 @@ function* chamberSteps(
 			o2Factor: 1,
 			airLeakSccm: 0,
 			heLeakSccm: 0,
+			rfMatchWear: 0,
 			swap: null
 		};
 		let excluded = false;
@@ -121,6 +129,8 @@ function* chamberSteps(
 			if (ep.kind === 'o2_mfc_drift') conditions.o2Factor = o2FlowFactor(ep, w.startMs, endMs);
 			else if (ep.kind === 'air_leak') conditions.airLeakSccm = airLeakSccm(ep, w.startMs, endMs);
 			else if (ep.kind === 'he_backside_leak') conditions.heLeakSccm = heLeakSccm(ep, w.startMs, endMs);
+			else if (ep.kind === 'rf_match_wear')
+				conditions.rfMatchWear = rfMatchWearFraction(ep, w.startMs, endMs);
 		}
 		const golden =
 			!excluded && sinceClean >= SEASONING_WAFERS && isGolden(w.recipe, w.lotId, qualified, sampled);

@@ -20,6 +20,6 @@ export {
 	SEASONING_WAFERS
 } from './generate';
 export { csvHeader, csvLine, REQUIRED_COLUMNS, writeWaferSummaryCsv, writeWaferSummaryCsvFile } from './csv';
-export { airLeakSccm, heLeakSccm, o2FlowFactor, PART_SWAP_OFFSET } from './episodes';
+export { airLeakSccm, heLeakSccm, o2FlowFactor, PART_SWAP_OFFSET, rfMatchWearFraction } from './episodes';
 export { EPISODE_CHAMBERS } from './fab';
 export { oesChannels, oesName, renderSpectrum, transmission } from './spectrum';

@@ -15,6 +15,8 @@ export interface WaferConditions {
 	o2Factor: number;
 	airLeakSccm: number;
 	heLeakSccm: number;
+	/** Extra reflected power of a wearing RF match, fraction of forward power (0: a healthy match). */
+	rfMatchWear: number;
 	/** Lasting per-species multipliers and DC-bias factor after a part swap (empty: none). */
 	swap: { species: Partial<Record<Species, number>>; dcBias: number } | null;
 }
@@ -99,8 +101,16 @@ export function simulateStep(
 	const pressure = st.pressureMtorr * (1 + 0.0015 * rng.normal());
 	const pRel = pressure / st.pressureMtorr;
 	const forward = st.powerW * (1 + 0.002 * rng.normal());
+	// A wearing match reflects a growing share on top of the healthy mismatch; its tuning hunts, so the
+	// extra jitters with the rest. Written so a healthy match (rfMatchWear = 0) gives the very same value.
+	const healthyReflected = forward * st.reflectedFraction * p.reflectedScale * (1 + 6 * (pRel - 1));
+	const reflectedJitter = 1 + 0.06 * rng.normal();
 	const reflected =
-		forward * st.reflectedFraction * p.reflectedScale * (1 + 6 * (pRel - 1)) * (1 + 0.06 * rng.normal());
+		w.rfMatchWear > 0
+			? (healthyReflected + forward * w.rfMatchWear) * reflectedJitter
+			: healthyReflected * reflectedJitter;
+	// The generator holds forward power: what the match reflects the plasma does not get, so nₑ, every
+	// line, the continuum and the DC bias (∝ √delivered) fall together.
 	const delivered = forward - reflected;
 	const ne = st.neScale * Math.pow(delivered / 1000, 0.9) * Math.pow(pRel, -0.3) * (1 + 0.012 * rng.normal());
 

@@ -33,7 +33,8 @@ export interface DemoMaintenance {
 	comment: string;
 }
 
-export type EpisodeKind = 'o2_mfc_drift' | 'air_leak' | 'he_backside_leak' | 'part_swap_offset';
+export type EpisodeKind =
+	'o2_mfc_drift' | 'air_leak' | 'he_backside_leak' | 'part_swap_offset' | 'rf_match_wear';
 
 export interface DemoEpisode {
 	id: string;

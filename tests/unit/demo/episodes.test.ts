@@ -120,6 +120,63 @@ describe('demo episodes', () => {
 		}
 	});
 
+	it('RF match wear: reflected power creeps up, DC bias and every line fall together, ratios hold', () => {
+		const e = episode('rf_match_wear');
+		expect(e.end).toBeNull();
+		for (const step of ['breakthrough', 'main_etch']) {
+			const mine = rowsOf(rows, e.chamberCode, step);
+			const golden = mine.filter((r) => r.golden);
+			const during = mine.filter((r) => inside(r, e));
+			// The last settled wafers (the wet clean near the end brings its own seasoning transient).
+			const late = during.filter(settled).slice(-20);
+			const before = mine.filter(
+				(r) => r.processedAt < e.start && r.processedAt.getTime() > e.start.getTime() - 3 * 86_400_000
+			);
+			expect(during.length, step).toBeGreaterThan(60);
+			expect(before.length, step).toBeGreaterThan(20);
+			const i = (name: string) => col(scenario, 'PGE-14', step, name);
+			const rel = (rs: DemoWaferStep[], k: number) =>
+				mean(rs.map((r) => r.values[k])) / mean(golden.map((r) => r.values[k]));
+			const [fwd, refl, bias, ar] = ['rf_forward_w', 'rf_reflected_w', 'dc_bias_v', 'oes_750.4'].map(i);
+			// Reflected: a few W at the start, tens of W by the end, rising with time; forward holds setpoint.
+			expect(mean(golden.map((r) => r.values[refl])), step).toBeLessThan(12);
+			expect(mean(late.map((r) => r.values[refl])), step).toBeGreaterThan(22);
+			expect(mean(during.slice(-5).map((r) => r.values[refl])), step).toBeLessThan(60);
+			expect(
+				pearson(
+					during.map((r) => r.processedAt.getTime()),
+					during.map((r) => r.values[refl])
+				),
+				step
+			).toBeGreaterThan(0.9);
+			expect(Math.abs(z(late, golden, fwd)), step).toBeLessThan(1);
+			// DC bias (negative) smaller in magnitude, ∝ √delivered: about −2 %.
+			expect(rel(late, bias), step).toBeGreaterThan(0.96);
+			expect(rel(late, bias), step).toBeLessThan(0.99);
+			expect(z(late, golden, bias), step).toBeGreaterThan(4);
+			// Lines of every species drop together by a few %, so their ratios to Ar stay put.
+			const lines =
+				step === 'main_etch'
+					? ['oes_811.5', 'oes_837.6', 'oes_656.3', 'oes_777.4', 'oes_703.7']
+					: ['oes_811.5', 'oes_703.7', 'oes_685.6', 'oes_777.4'];
+			for (const name of ['oes_750.4', ...lines]) {
+				expect(rel(late, i(name)), `${step} ${name}`).toBeGreaterThan(0.93);
+				expect(rel(late, i(name)), `${step} ${name}`).toBeLessThan(0.985);
+			}
+			for (const name of lines) {
+				const ratio = (rs: DemoWaferStep[]) => mean(rs.map((r) => r.values[i(name)] / r.values[ar]));
+				expect(Math.abs(ratio(late) / ratio(golden) - 1), `${step} ${name}/Ar`).toBeLessThan(0.025);
+			}
+			// Nothing of it before the start: the days before sit with the golden wafers.
+			expect(Math.abs(z(before, golden, refl)), step).toBeLessThan(1);
+			expect(Math.abs(z(before, golden, bias)), step).toBeLessThan(1);
+			// And it drives the independent monitor's Q with the RF sensors on top.
+			const top = topContributors(mine, late, 3);
+			expect(top[0], `${step}: ${top.join(', ')}`).toBe('rf_reflected_w');
+			expect(top, step).toContain('dc_bias_v');
+		}
+	});
+
 	it('part swap: quiet against its own golden wafers, apart from the fleet on a few features', () => {
 		const e = episode('part_swap_offset');
 		const fleet = scenario.chambers.filter((c) => c.recipes.includes('PGE-14')).map((c) => c.code);

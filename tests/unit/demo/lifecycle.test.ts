@@ -67,6 +67,24 @@ describe('demo under Lockstep’s baseline lifecycle', () => {
 		expect(rate(o2.slice(-third), (s) => s.qRatio > 1)).toBeGreaterThan(0.9);
 	});
 
+	it('RF match wear: Q climbs as the match wears and alarms on nearly every wafer of its last days', () => {
+		const e = episode('rf_match_wear');
+		const mine = of(e.chamberCode).sort((a, b) => a.row.processedAt.getTime() - b.row.processedAt.getTime());
+		const during = mine.filter((s) => s.row.processedAt >= e.start);
+		const week = mine.filter(
+			(s) =>
+				s.row.processedAt < e.start &&
+				s.row.processedAt.getTime() > e.start.getTime() - 7 * 86_400_000 &&
+				!s.seasoning
+		);
+		const third = Math.floor(during.length / 3);
+		const mean = (a: LifecycleScore[]) => a.reduce((x, s) => x + s.qRatio, 0) / a.length;
+		expect(week.length).toBeGreaterThan(100);
+		expect(rate(week, (s) => s.qRatio > 1 || s.t2Ratio > 1)).toBeLessThan(0.08);
+		expect(mean(during.slice(-third))).toBeGreaterThan(4 * mean(during.slice(0, third)));
+		expect(rate(during.slice(-third), (s) => s.qRatio > 1)).toBeGreaterThan(0.9);
+	});
+
 	it('part swap: the swapped chamber stays quiet against its own baselines after the swap', () => {
 		const e = episode('part_swap_offset');
 		const after = of(e.chamberCode).filter((s) => s.row.processedAt >= e.start && !s.seasoning);

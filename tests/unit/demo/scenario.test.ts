@@ -102,10 +102,16 @@ describe('demo scenario', () => {
 		expect(cycles).toBeGreaterThanOrEqual(30);
 	});
 
-	it('documents the four episodes on four different chambers, inside the window', () => {
+	it('documents the five episodes on five different chambers, inside the window', () => {
 		const kinds = sc.episodes.map((e) => e.kind).sort();
-		expect(kinds).toEqual(['air_leak', 'he_backside_leak', 'o2_mfc_drift', 'part_swap_offset']);
-		expect(new Set(sc.episodes.map((e) => e.chamberCode)).size).toBe(4);
+		expect(kinds).toEqual([
+			'air_leak',
+			'he_backside_leak',
+			'o2_mfc_drift',
+			'part_swap_offset',
+			'rf_match_wear'
+		]);
+		expect(new Set(sc.episodes.map((e) => e.chamberCode)).size).toBe(5);
 		expect(Object.values(EPISODE_CHAMBERS).sort()).toEqual(sc.episodes.map((e) => e.chamberCode).sort());
 		for (const e of sc.episodes) {
 			expect(e.start.getTime()).toBeGreaterThan(sc.start.getTime());
@@ -115,6 +121,14 @@ describe('demo scenario', () => {
 		}
 		const air = sc.episodes.find((e) => e.kind === 'air_leak')!;
 		expect(sc.end.getTime() - air.start.getTime()).toBeLessThanOrEqual(5 * DAY);
+		// The match wear runs over the last week and is still open; wet cleans go on (they do not fix a match).
+		const rf = sc.episodes.find((e) => e.kind === 'rf_match_wear')!;
+		expect(rf.end).toBeNull();
+		expect(sc.end.getTime() - rf.start.getTime()).toBeGreaterThan(5 * DAY);
+		expect(sc.end.getTime() - rf.start.getTime()).toBeLessThan(8 * DAY);
+		expect(sc.maintenance.filter((m) => m.chamberCode === rf.chamberCode && m.kind !== 'wet_clean')).toEqual(
+			[]
+		);
 		// The swap and the He-leak repair are in the maintenance log.
 		const swap = sc.episodes.find((e) => e.kind === 'part_swap_offset')!;
 		expect(sc.maintenance.some((m) => m.kind === 'part_swap' && m.chamberCode === swap.chamberCode)).toBe(
