@@ -12,15 +12,9 @@ import { tmpdir } from 'node:os';
 import { join } from 'node:path';
 import { fileURLToPath, pathToFileURL } from 'node:url';
 import { XSadd } from 'ml-xsadd';
+import type { BenchFigure } from './figure.ts';
 import { fitBaseline, scoreBatch, scoreWafer } from '../src/lib/monitoring/index';
 
-export interface BenchFigure {
-	name: string;
-	value: number;
-	unit: string;
-	target?: string;
-	numpy?: number;
-}
 
 /** Seeded data: `factors` latent factors through random loadings plus unit noise, n × p flat. */
 function latentData(seed: number, n: number, p: number, factors: number): Float64Array {

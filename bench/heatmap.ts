@@ -8,23 +8,17 @@
  * Run alone: node --import tsx bench/heatmap.ts   (prints p50/p95; bench/run.ts may call
  * runHeatmapBench()). Target from the issue: p95 < 100 ms for the 30-day window.
  */
-import { spawn, spawnSync } from 'node:child_process';
 import fs from 'node:fs';
-import net from 'node:net';
 import os from 'node:os';
 import path from 'node:path';
 import { pathToFileURL } from 'node:url';
 import Database from 'better-sqlite3';
 import { XSadd } from 'ml-xsadd';
 import { closeDb, migrateLatest, openDb, setDb } from '../src/lib/server/db.ts';
+import type { BenchFigure } from './figure.ts';
+import { createUser, percentile, signIn, startServer } from '../tests/load/server.ts';
 import { getHeatmap, parseHeatmapParams } from '../src/lib/server/views/heatmap.ts';
 
-export interface BenchFigure {
-	name: string;
-	value: number;
-	unit: string;
-	target?: string;
-}
 
 const HOUR = 3_600_000;
 const DAY = 24 * HOUR;
@@ -148,60 +142,23 @@ function seed(file: string, end: number): { waferSteps: number; rollups: number 
 	return { waferSteps, rollups };
 }
 
-function percentile(sorted: number[], p: number): number {
-	const i = Math.min(sorted.length - 1, Math.max(0, Math.ceil((p / 100) * sorted.length) - 1));
-	return sorted[i];
-}
-
-function freePort(): Promise<number> {
-	return new Promise((resolve, reject) => {
-		const s = net.createServer();
-		s.listen(0, '127.0.0.1', () => {
-			const port = (s.address() as net.AddressInfo).port;
-			s.close(() => resolve(port));
-		});
-		s.on('error', reject);
-	});
-}
-
 async function timeHttp(dataDir: string, query: string, runs: number): Promise<number[] | null> {
 	if (!fs.existsSync('build/index.js') || process.env.BENCH_NO_HTTP) return null;
-	const env = { ...process.env, LOCKSTEP_DATA_DIR: dataDir, NODE_ENV: 'production' };
-	const u = spawnSync(process.execPath, ['--import', 'tsx', 'scripts/user-create.ts', '--username', 'bench-viewer', '--name', 'Bench viewer', '--role', 'viewer', '--password', 'bench-password-42'], { env, encoding: 'utf8' });
-	if (u.status !== 0) throw new Error(`user-create failed: ${u.stderr}`);
-	const port = await freePort();
-	const base = `http://127.0.0.1:${port}`;
-	const server = spawn(process.execPath, ['scripts/serve.js'], { env: { ...env, LOCKSTEP_ANSWER_CACHE: 'off', HOST: '127.0.0.1', PORT: String(port), ORIGIN: base }, stdio: 'ignore' });
+	createUser(dataDir, 'bench-viewer', 'viewer', 'bench-password-42');
+	const server = await startServer(dataDir, { LOCKSTEP_ANSWER_CACHE: 'off' }); // time the computation, not a kept answer
 	try {
-		const deadline = Date.now() + 30_000;
-		for (;;) {
-			try {
-				if ((await fetch(`${base}/api/health`)).ok) break;
-			} catch {
-				/* starting */
-			}
-			if (Date.now() > deadline) throw new Error('server did not start');
-			await new Promise((r) => setTimeout(r, 200));
-		}
-		const r = await fetch(`${base}/sign-in`, {
-			method: 'POST',
-			redirect: 'manual',
-			headers: { origin: base, 'content-type': 'application/x-www-form-urlencoded', accept: 'text/html' },
-			body: new URLSearchParams({ username: 'bench-viewer', password: 'bench-password-42' })
-		});
-		const cookie = r.headers.getSetCookie().find((c) => c.startsWith('lockstep_session='))?.split(';')[0];
-		if (!cookie) throw new Error(`sign-in failed: ${r.status}`);
+		const cookie = await signIn(server.base, 'bench-viewer', 'bench-password-42');
 		const times: number[] = [];
 		for (let i = 0; i < runs + 5; i++) {
 			const t = performance.now();
-			const res = await fetch(`${base}/api/heatmap?${query}`, { headers: { cookie } });
+			const res = await fetch(`${server.base}/api/heatmap?${query}`, { headers: { cookie } });
 			if (!res.ok) throw new Error(`GET /api/heatmap → ${res.status}: ${await res.text()}`);
 			await res.arrayBuffer();
 			if (i >= 5) times.push(performance.now() - t);
 		}
 		return times.sort((a, b) => a - b);
 	} finally {
-		server.kill('SIGTERM');
+		await server.stop();
 	}
 }
 

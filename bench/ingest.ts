@@ -21,15 +21,9 @@ import type { Knex } from 'knex';
 import { closeDb, migrateLatest, openDb, setDb } from '../src/lib/server/db.ts';
 import { ingestFile } from '../src/lib/server/ingest/index.ts';
 import { approveBaseline, createDraftBaseline } from '../src/lib/server/baselines.ts';
+import type { BenchFigure } from './figure.ts';
 import { createUser } from '../src/lib/server/users.ts';
 
-export interface BenchFigure {
-	name: string;
-	value: number;
-	unit: string;
-	target?: string;
-	numpy?: number;
-}
 
 const CHAMBERS = Array.from({ length: 10 }, (_, i) => `BX${String(i + 1).padStart(2, '0')}`);
 const STEPS = ['main', 'overetch'];

@@ -24,14 +24,9 @@ import { ingestFile } from '../src/lib/server/ingest/index.ts';
 import { approveBaseline, createDraftBaseline } from '../src/lib/server/baselines.ts';
 import { createUser } from '../src/lib/server/users.ts';
 import { getWaferView } from '../src/lib/server/views/wafer-view.ts';
+import type { BenchFigure } from './figure.ts';
 import { percentile, signIn, startServer } from '../tests/load/server.ts';
 
-interface Figure {
-	name: string;
-	value: number;
-	unit: string;
-	target?: string;
-}
 
 const DAY = 86_400_000;
 const TOTAL = Number(process.env.LOCKSTEP_BENCH_WAFER_ROWS ?? 1_000_000);
@@ -132,10 +127,10 @@ async function timeHttp(dir: string, ids: number[]): Promise<number[] | null> {
 	}
 }
 
-async function measure(): Promise<Figure[]> {
+async function measure(): Promise<BenchFigure[]> {
 	const dir = fs.mkdtempSync(path.join(os.tmpdir(), 'lockstep-bench-wafer-'));
 	const file = path.join(dir, 'lockstep.sqlite');
-	const figures: Figure[] = [];
+	const figures: BenchFigure[] = [];
 	try {
 		const k = openDb({ client: 'better-sqlite3', filename: file, connectionString: null });
 		setDb(k);
@@ -193,10 +188,10 @@ async function measure(): Promise<Figure[]> {
  * Runs in a child process: the baseline-model cache (baselines.ts) is per process and keyed by baseline
  * id, and the other benches in `npm run bench` fill it from their own databases with the same ids.
  */
-export async function runWaferBench(): Promise<Figure[]> {
+export async function runWaferBench(): Promise<BenchFigure[]> {
 	const r = spawnSync(process.execPath, ['--import', 'tsx', fileURLToPath(import.meta.url), '--json'], { encoding: 'utf8', stdio: ['ignore', 'pipe', 'inherit'], maxBuffer: 16 << 20 });
 	if (r.status !== 0) throw new Error(`bench/wafer.ts failed (${r.status})`);
-	return JSON.parse(r.stdout.trim().split('\n').pop()!) as Figure[];
+	return JSON.parse(r.stdout.trim().split('\n').pop()!) as BenchFigure[];
 }
 
 if (process.argv[1] && import.meta.url === pathToFileURL(process.argv[1]).href) {

@@ -25,8 +25,8 @@ export function runTsx(args: string[], env: NodeJS.ProcessEnv): string {
 	return r.stdout;
 }
 
-export function createUser(dataDir: string, username: string, role: 'viewer' | 'engineer' | 'admin', password: string) {
-	runTsx(['scripts/user-create.ts', '--username', username, '--name', `Load ${username}`, '--role', role, '--password', password], { LOCKSTEP_DATA_DIR: dataDir, NODE_ENV: 'production' });
+export function createUser(dataDir: string, username: string, role: 'viewer' | 'engineer' | 'admin', password: string, displayName = `Load ${username}`) {
+	runTsx(['scripts/user-create.ts', '--username', username, '--name', displayName, '--role', role, '--password', password], { LOCKSTEP_DATA_DIR: dataDir, NODE_ENV: 'production' });
 }
 
 export interface RunningServer {

@@ -35,6 +35,8 @@ let localWrites = 0;
 let storedVersion = '';
 let chars = 0;
 const store = new Map<string, { at: number; version: string; body: string }>();
+/** computations under way, by data version and key */
+const inFlight = new Map<string, Promise<{ status: number; body: string }>>();
 
 /** This process changed the database (called after every non-GET request). */
 export function noteLocalWrite(): void {
@@ -119,8 +121,6 @@ export async function answerJson(key: string, maxAgeMs: number, compute: () => P
 	const { status, body } = await flight;
 	return jsonBody(body, status);
 }
-
-const inFlight = new Map<string, Promise<{ status: number; body: string }>>();
 
 /** How many computations are under way (tests). */
 export function answersInFlight(): number {

@@ -5,16 +5,9 @@
 import type { Knex } from 'knex';
 import { db } from './db.ts';
 import { now } from './time.ts';
+import { CAUSE_CATEGORIES, type CauseCategory } from '../cause-categories.ts';
 
-export const CAUSE_CATEGORIES = {
-	hardware: 'Hardware',
-	consumable: 'Consumable',
-	process: 'Process',
-	sensor: 'Sensor',
-	false_alarm: 'False alarm',
-	other: 'Other'
-} as const;
-export type CauseCategory = keyof typeof CAUSE_CATEGORIES;
+export { CAUSE_CATEGORIES, type CauseCategory };
 
 export interface CauseCode {
 	id: number;

@@ -73,18 +73,10 @@ export async function listSubscriptions(k: Knex = db()): Promise<(Subscription &
 	return rows.map((r) => ({ ...toSubscription(r), username: r.username, displayName: r.display_name, disabled: r.disabled_at !== null }));
 }
 
-/** What the form edits. */
-export interface SubscriptionInput {
-	email: string;
-	areaCodes: string[];
-	chamberCodes: string[];
-	digestEnabled: boolean;
-	digestTime: string;
-	timeZone: string;
-	alarmMails: boolean;
+/** What the form edits: the subscription's own settings, the severity as typed (checked on save). */
+export type SubscriptionInput = Pick<Subscription, 'email' | 'areaCodes' | 'chamberCodes' | 'digestEnabled' | 'digestTime' | 'timeZone' | 'alarmMails' | 'weeklySummary'> & {
 	alarmMinSeverity: string;
-	weeklySummary: boolean;
-}
+};
 
 /** The form's starting values for a user without a subscription: their account's address and zone. */
 export function defaultInput(user: { email: string | null; timeZone: string }): SubscriptionInput {
