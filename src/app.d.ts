@@ -5,8 +5,9 @@ declare global {
 		interface Locals {
 			user: { id: string; username: string; displayName: string; role: Role; timeZone: string; email: string | null } | null;
 			session: import('lucia').Session | null;
-			/** Set when the request was authenticated by an API token instead of a session. */
-			apiToken: { id: number; scope: 'ingest' | 'read'; name: string } | null;
+			/** Set when the request was authenticated by an API token instead of a session (for a personal
+			 * token, `user` is its owner). */
+			apiToken: import('$lib/server/api-tokens').TokenIdentity | null;
 		}
 		interface Error {
 			message: string;

@@ -48,8 +48,9 @@ const session: Handle = async ({ event, resolve }) => {
 
 /**
  * Resolve `Authorization: Bearer <token>` on API routes to `locals.apiToken`. A request carrying a
- * token acts as that token only (any session cookie sent along is ignored); an unknown or revoked
- * token is refused here, before the route policy.
+ * token acts as that token only (any session cookie sent along is ignored): a service token as nobody,
+ * a personal token as its owner (`locals.user`, so what it does is recorded under their name). An
+ * unknown or revoked token is refused here, before the route policy.
  */
 const bearer: Handle = async ({ event, resolve }) => {
 	const raw = bearerToken(event.request.headers.get('authorization'));
@@ -61,7 +62,7 @@ const bearer: Handle = async ({ event, resolve }) => {
 			headers: { 'content-type': 'application/json', 'www-authenticate': 'Bearer' }
 		});
 	event.locals.apiToken = token;
-	event.locals.user = null;
+	event.locals.user = token.owner;
 	event.locals.session = null;
 	return resolve(event);
 };

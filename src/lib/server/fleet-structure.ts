@@ -1,4 +1,8 @@
-/** Areas, tools and chambers: the fab's structure as the screens show it. */
+/**
+ * Areas, tools and chambers: the fab's structure as the screens show it. Retired entries (an admin's
+ * choice: structure-edits.ts) leave the fleet's lists but keep their history, so a retired chamber's
+ * own page and its wafers stay readable.
+ */
 import type { Knex } from 'knex';
 import { db } from './db.ts';
 
@@ -12,12 +16,15 @@ export interface ChamberInfo {
 	areaName: string;
 	requalifySince: number | null;
 	requalifyReason: string | null;
+	retiredAt: number | null;
 }
 
-export async function listChambers(k: Knex = db()): Promise<ChamberInfo[]> {
+/** The fleet's chambers by area, tool and code; `includeRetired` adds the retired ones. */
+export async function listChambers(k: Knex = db(), opts: { includeRetired?: boolean } = {}): Promise<ChamberInfo[]> {
 	const rows = await k('chambers as c')
 		.join('tools as t', 't.id', 'c.tool_id')
 		.join('areas as a', 'a.id', 't.area_id')
+		.modify((q) => (opts.includeRetired ? q : q.whereNull('c.retired_at')))
 		.orderBy([{ column: 'a.code' }, { column: 't.code' }, { column: 'c.code' }])
 		.select(
 			'c.id',
@@ -28,7 +35,8 @@ export async function listChambers(k: Knex = db()): Promise<ChamberInfo[]> {
 			'a.code as area_code',
 			'a.name as area_name',
 			'c.requalify_since',
-			'c.requalify_reason'
+			'c.requalify_reason',
+			'c.retired_at'
 		);
 	return rows.map((r) => ({
 		id: r.id,
@@ -39,7 +47,8 @@ export async function listChambers(k: Knex = db()): Promise<ChamberInfo[]> {
 		areaCode: r.area_code,
 		areaName: r.area_name,
 		requalifySince: r.requalify_since === null ? null : Number(r.requalify_since),
-		requalifyReason: r.requalify_reason
+		requalifyReason: r.requalify_reason,
+		retiredAt: r.retired_at === null ? null : Number(r.retired_at)
 	}));
 }
 
@@ -77,4 +86,56 @@ export async function waferCountsByChamber(until: number, hours: number, k: Knex
 		.groupBy('chamber_id')
 		.select('chamber_id', k.raw('count(*) as n'));
 	return new Map(rows.map((r) => [Number(r.chamber_id), Number(r.n)]));
+}
+
+export interface StructureArea {
+	code: string;
+	name: string;
+	retiredAt: number | null;
+}
+export interface StructureTool extends StructureArea {
+	areaCode: string;
+}
+export interface StructureChamber extends StructureArea {
+	toolCode: string;
+	createdAt: number;
+	/** wafer-steps stored for the chamber, and the latest one's time */
+	waferSteps: number;
+	lastWaferAt: number | null;
+}
+export interface Structure {
+	areas: StructureArea[];
+	tools: StructureTool[];
+	chambers: StructureChamber[];
+}
+
+/** The whole structure, retired entries included, for the admin page and the API. */
+export async function listStructure(k: Knex = db()): Promise<Structure> {
+	const ms = (v: unknown) => (v === null || v === undefined ? null : Number(v));
+	const areas = await k('areas').orderBy('code').select('code', 'name', 'retired_at');
+	const tools = await k('tools as t').join('areas as a', 'a.id', 't.area_id').orderBy('t.code').select('t.code', 't.name', 't.retired_at', 'a.code as area_code');
+	const counts: { chamber_id: number; n: number | string; last: number | string | null }[] = await k('wafer_steps')
+		.groupBy('chamber_id')
+		.select('chamber_id', k.raw('count(*) as n'), k.raw('max(processed_at) as last'));
+	const byChamber = new Map(counts.map((c) => [Number(c.chamber_id), c]));
+	const chambers = await k('chambers as c')
+		.join('tools as t', 't.id', 'c.tool_id')
+		.orderBy('c.code')
+		.select('c.id', 'c.code', 'c.name', 'c.retired_at', 'c.created_at', 't.code as tool_code');
+	return {
+		areas: areas.map((a) => ({ code: a.code, name: a.name, retiredAt: ms(a.retired_at) })),
+		tools: tools.map((t) => ({ code: t.code, name: t.name, retiredAt: ms(t.retired_at), areaCode: t.area_code })),
+		chambers: chambers.map((c) => {
+			const n = byChamber.get(Number(c.id));
+			return {
+				code: c.code,
+				name: c.name,
+				retiredAt: ms(c.retired_at),
+				toolCode: c.tool_code,
+				createdAt: Number(c.created_at),
+				waferSteps: Number(n?.n ?? 0),
+				lastWaferAt: ms(n?.last)
+			};
+		})
+	};
 }

@@ -4,7 +4,8 @@
  * refused — new routes must be added here, and the route × role matrix test walks the file system to
  * make sure each one is.
  */
-import type { Role } from './roles.ts';
+import { hasRole, type Role } from './roles.ts';
+import type { TokenScope } from './api-tokens.ts';
 
 export type Access = 'public' | Role;
 
@@ -16,8 +17,12 @@ export interface RoutePolicy {
 	DELETE?: Access;
 	/** Form actions of a page, by name (`default` for the unnamed one). */
 	actions?: Record<string, Access>;
-	/** API routes that also accept a bearer API token of this scope. */
-	token?: 'ingest' | 'read';
+	/**
+	 * API routes that also accept a *service* token (a tool host's) of this scope, or of any of these.
+	 * Personal tokens need no entry: they act as their owner on every API route that owner's role may
+	 * use, within their own scopes (see decide).
+	 */
+	token?: TokenScope | TokenScope[];
 }
 
 export const ROUTE_POLICY: Record<string, RoutePolicy> = {
@@ -59,7 +64,17 @@ export const ROUTE_POLICY: Record<string, RoutePolicy> = {
 	// mailbox, and the public unsubscribe page, where the signed token is the credential.
 	'/account/mail': { GET: 'viewer', actions: { save: 'viewer' } },
 	'/admin/mail': { GET: 'admin', actions: { send: 'admin', requeue: 'admin', policy: 'admin' } },
-	'/unsubscribe': { GET: 'public', actions: { default: 'public' } }
+	'/unsubscribe': { GET: 'public', actions: { default: 'public' } },
+	// Fab structure (admins edit it; every signed-in role and any token reads the chamber list), one's
+	// own API tokens, and the API's OpenAPI document (public: it holds no data, and automation reads it
+	// before it has a token).
+	'/admin/structure': {
+		GET: 'admin',
+		actions: { area: 'admin', tool: 'admin', chamber: 'admin', rename: 'admin', move: 'admin', retire: 'admin', restore: 'admin' }
+	},
+	'/api/chambers': { GET: 'viewer', POST: 'admin', token: ['read', 'ingest'] },
+	'/account/tokens': { GET: 'viewer', actions: { create: 'viewer', revoke: 'viewer' } },
+	'/api/openapi.json': { GET: 'public' }
 };
 
 /** The form action named by a POST to a page: `?/name`, or `default`. */
@@ -83,7 +98,7 @@ export function decide(
 	url: URL,
 	role: Role | null,
 	isPage: boolean,
-	token: { scope: 'ingest' | 'read' } | null = null
+	token: { scopes: readonly TokenScope[]; owner: { role: Role } | null } | null = null
 ): Decision {
 	const policy = ROUTE_POLICY[routeId];
 	if (!policy) return { allow: false, status: 403, reason: `route ${routeId} has no access policy` };
@@ -93,18 +108,39 @@ export function decide(
 	else access = policy[method as 'GET' | 'POST' | 'PUT' | 'PATCH' | 'DELETE'];
 	if (access === undefined) return { allow: false, status: 405, reason: `${method} is not allowed here` };
 	if (access === 'public') return { allow: true };
-	// A token may use only the routes that name its scope; a read token only reads. An ingest token
-	// therefore can post wafer summaries but never read or acknowledge anything.
-	if (token) {
-		if (policy.token !== token.scope)
-			return { allow: false, status: 403, reason: `An API token of scope "${token.scope}" cannot use this route.` };
-		if (token.scope === 'read' && method !== 'GET' && method !== 'HEAD')
-			return { allow: false, status: 403, reason: 'A read token can only read.' };
-		return { allow: true };
+	if (token?.owner) {
+		// A personal token acts as its owner (their role is checked below) within its scopes.
+		const needed = tokenScopeFor(policy, method);
+		if (!token.scopes.includes(needed))
+			return { allow: false, status: 403, reason: `This needs a token with the "${needed}" scope; this one has ${token.scopes.join(', ')}.` };
+		role = token.owner.role;
+	} else if (token) {
+		// A service token acts as nobody: it may read the routes that name one of its scopes and send
+		// files where `ingest` is named, and change nothing else. An ingest token therefore can post wafer
+		// summaries but never acknowledge anything; a read token only reads.
+		const accepts = acceptedScopes(policy);
+		const reading = method === 'GET' || method === 'HEAD';
+		const ok = reading ? token.scopes.some((s) => accepts.includes(s)) : tokenScopeFor(policy, method) === 'ingest' && token.scopes.includes('ingest');
+		if (ok) return { allow: true };
+		if (!reading && token.scopes.length === 1 && token.scopes[0] === 'read') return { allow: false, status: 403, reason: 'A read token can only read.' };
+		return { allow: false, status: 403, reason: `An API token of scope "${token.scopes.join(', ')}" cannot use this route.` };
 	}
 	if (!role) return { allow: false, status: 401, reason: 'Sign in first.' };
-	const order = ['viewer', 'engineer', 'admin'];
-	if (order.indexOf(role) < order.indexOf(access))
+	if (!hasRole(role, access))
 		return { allow: false, status: 403, reason: `This needs the ${access} role; you are signed in as ${role}.` };
 	return { allow: true };
+}
+
+/**
+ * The scope a personal token needs for a request: reading is `read`; a POST to a route that takes
+ * ingest tokens only (sending files) is `ingest`; any other change is `write`.
+ */
+export function tokenScopeFor(policy: RoutePolicy, method: string): TokenScope {
+	if (method === 'GET' || method === 'HEAD') return 'read';
+	const accepts = acceptedScopes(policy);
+	return accepts.includes('ingest') && method === 'POST' && !accepts.includes('read') ? 'ingest' : 'write';
+}
+
+function acceptedScopes(policy: RoutePolicy): TokenScope[] {
+	return policy.token === undefined ? [] : Array.isArray(policy.token) ? policy.token : [policy.token];
 }

@@ -169,7 +169,8 @@ export async function resolveStepPlan(
 
 // ── Chambers ──────────────────────────────────────────────────────────────────
 
-const UNASSIGNED = { code: 'UNASSIGNED', name: 'Registered by ingest (assign a tool)' };
+/** The area and tool that chambers registered by ingest wait in until an admin assigns them. */
+export const UNASSIGNED = { code: 'UNASSIGNED', name: 'Registered by ingest (assign a tool)' };
 
 /** Register a chamber a file brought, under a placeholder area and tool an admin reassigns later. */
 export async function registerChamber(trx: Knex.Transaction, code: string): Promise<number> {

@@ -17,7 +17,8 @@ import { spoolStream } from './spool.ts';
 
 export interface IngestRequestContext {
 	user: { id: string; role: Role } | null;
-	token: { id: number } | null;
+	/** `registers`: the token carries the register scope (api-tokens.ts: tokenRegistersChambers) */
+	token: { id: number; registers?: boolean } | null;
 }
 
 export interface HttpAnswer {
@@ -67,6 +68,8 @@ export async function ingestRequest(request: Request, url: URL, ctx: IngestReque
 		submittedBy: ctx.user?.id ?? null,
 		submitterRole: ctx.user?.role ?? null,
 		apiTokenId: ctx.token?.id ?? null,
+		// Without the register scope the ingest policy decides (pipeline.ts).
+		registerUnknownChambers: ctx.token?.registers ? true : undefined,
 		limitBytes,
 		onProgress: track ? (p) => setProgress(owner, track, p) : undefined
 	};

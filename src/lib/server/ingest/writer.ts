@@ -66,6 +66,8 @@ export class FileWriter {
 	private rejectionRows: Array<Record<string, unknown>> = [];
 	private readonly seen = new Map<string, number>();
 	private readonly chambers = new Map<string, number | null>();
+	/** chambers an admin retired (fab structure): their rows are refused, their history kept */
+	private readonly retired = new Set<string>();
 	private readonly plans = new Map<string, StepPlan>();
 	/** rows refused because their step's feature set differs, per plan: each becomes a proposal */
 	private readonly refusedForSet = new Map<StepPlan, number>();
@@ -113,9 +115,10 @@ export class FileWriter {
 
 	private async rowAfterLookup(fields: string[], line: number, chamberCode: string, recipe: string, step: string): Promise<void> {
 		if (!this.chambers.has(chamberCode) && parseId(chamberCode, ID_MAX.chamber_id).ok) {
-			const c = await this.trx('chambers').where({ code: chamberCode }).first('id');
-			let chamberId: number | null = c ? Number(c.id) : null;
-			if (chamberId === null && this.opts.registerUnknownChambers) {
+			const c = await this.trx('chambers').where({ code: chamberCode }).first('id', 'retired_at');
+			let chamberId: number | null = c && c.retired_at === null ? Number(c.id) : null;
+			if (c && c.retired_at !== null) this.retired.add(chamberCode);
+			if (chamberId === null && !c && this.opts.registerUnknownChambers) {
 				chamberId = await registerChamber(this.trx, chamberCode);
 				this.stats.created.chambers.push(chamberCode);
 			}
@@ -155,7 +158,15 @@ export class FileWriter {
 		if (ids.chamber_id !== undefined) {
 			chamberId = this.chambers.get(ids.chamber_id) ?? null;
 			if (chamberId === null)
-				bad('chamber_id', ids.chamber_id, this.opts.registerUnknownChambers ? 'could not be registered' : 'is not a known chamber: an admin must add it to the fab structure first (or allow auto-registration)');
+				bad(
+					'chamber_id',
+					ids.chamber_id,
+					this.retired.has(ids.chamber_id)
+						? 'is a retired chamber: an admin must restore it (Admin → Fab structure) before it takes new wafers'
+						: this.opts.registerUnknownChambers
+							? 'could not be registered'
+							: 'is not a known chamber: an admin must add it to the fab structure first (or allow auto-registration)'
+				);
 		}
 		let plan: StepPlan | undefined;
 		if (ids.recipe !== undefined && ids.step !== undefined) {

@@ -39,7 +39,7 @@ export interface ChamberHeader {
  * @returns null when no chamber has that code
  */
 export async function getChamberHeader(code: string, k: Knex = db()): Promise<ChamberHeader | null> {
-	const chamber = (await listChambers(k)).find((c) => c.code === code);
+	const chamber = (await listChambers(k, { includeRetired: true })).find((c) => c.code === code);
 	if (!chamber) return null;
 	const all = await listRecipeSteps(k);
 	const ran: { recipe_step_id: number; n: number | string; last: number | string | null }[] = await k('wafer_steps')

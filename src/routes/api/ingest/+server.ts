@@ -1,5 +1,6 @@
 import { json } from '@sveltejs/kit';
 import { ingestRequest } from '$lib/server/ingest/http';
+import { tokenRegistersChambers } from '$lib/server/api-tokens';
 import type { RequestHandler } from './$types';
 
 /**
@@ -15,6 +16,7 @@ export const POST: RequestHandler = async ({ request, url, locals }) => {
 			return json({ error: 'Cross-origin uploads are refused.', location: { file: null, line: null, column: null } }, { status: 403 });
 	}
 	const user = locals.user ? { id: locals.user.id, role: locals.user.role } : null;
-	const answer = await ingestRequest(request, url, { user, token: locals.apiToken });
+	const token = locals.apiToken ? { id: locals.apiToken.id, registers: tokenRegistersChambers(locals.apiToken) } : null;
+	const answer = await ingestRequest(request, url, { user, token });
 	return json(answer.body, { status: answer.status });
 };
