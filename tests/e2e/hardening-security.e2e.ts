@@ -303,7 +303,9 @@ const PAGES: Record<string, string> = {
 	'/admin/tokens': '/admin/tokens',
 	'/account/mail': '/account/mail',
 	'/admin/mail': '/admin/mail',
-	'/unsubscribe': '/unsubscribe?t=not-a-token'
+	'/unsubscribe': '/unsubscribe?t=not-a-token',
+	'/admin/structure': '/admin/structure',
+	'/account/tokens': '/account/tokens'
 };
 
 function pageRouteIds(dir = 'src/routes', prefix = ''): string[] {

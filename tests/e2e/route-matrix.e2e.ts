@@ -54,7 +54,15 @@ export const EXPECTED: Record<string, Entry> = {
 	// Mail. /unsubscribe's GET needs a signed token (a bad one answers 400): mail-unsubscribe.e2e.ts tests it.
 	'/account/mail': { GET: 'viewer', actions: { save: 'viewer' } },
 	'/admin/mail': { GET: 'admin', actions: { send: 'admin', requeue: 'admin', policy: 'admin' } },
-	'/unsubscribe': { actions: { default: 'public' } }
+	'/unsubscribe': { actions: { default: 'public' } },
+	// Fab structure, personal tokens, the API document. POST /api/chambers by role and token is in api-walkthrough.e2e.ts.
+	'/admin/structure': {
+		GET: 'admin',
+		actions: { area: 'admin', tool: 'admin', chamber: 'admin', rename: 'admin', move: 'admin', retire: 'admin', restore: 'admin' }
+	},
+	'/api/chambers': { GET: 'viewer', POST: 'admin' },
+	'/account/tokens': { GET: 'viewer', actions: { create: 'viewer', revoke: 'viewer' } },
+	'/api/openapi.json': { GET: 'public' }
 };
 
 const WHO: Who[] = ['anonymous', 'viewer', 'engineer', 'admin'];

@@ -21,10 +21,9 @@ export interface ChamberInfo {
 
 /** The fleet's chambers by area, tool and code; `includeRetired` adds the retired ones. */
 export async function listChambers(k: Knex = db(), opts: { includeRetired?: boolean } = {}): Promise<ChamberInfo[]> {
-	const rows = await k('chambers as c')
+	const q = k('chambers as c')
 		.join('tools as t', 't.id', 'c.tool_id')
 		.join('areas as a', 'a.id', 't.area_id')
-		.modify((q) => (opts.includeRetired ? q : q.whereNull('c.retired_at')))
 		.orderBy([{ column: 'a.code' }, { column: 't.code' }, { column: 'c.code' }])
 		.select(
 			'c.id',
@@ -38,6 +37,8 @@ export async function listChambers(k: Knex = db(), opts: { includeRetired?: bool
 			'c.requalify_reason',
 			'c.retired_at'
 		);
+	if (!opts.includeRetired) q.whereNull('c.retired_at');
+	const rows = await q;
 	return rows.map((r) => ({
 		id: r.id,
 		code: r.code,
