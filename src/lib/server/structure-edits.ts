@@ -59,56 +59,34 @@ async function liveParent(trx: Knex, kind: 'area' | 'tool', code: string, field:
 	return { id: Number(row.id) };
 }
 
-/** Create an area. */
-export async function addArea(input: { code: unknown; name?: unknown }, k: Knex = db()): Promise<EditResult<{ code: string }>> {
-	const code = checkCode('area', input.code);
-	const name = checkName(input.name, code.ok ? code.code : undefined);
-	const errors: FieldErrors = {};
-	if (!code.ok) errors.code = code.message;
-	if (!name.ok) errors.name = name.message;
-	if (!code.ok || !name.ok) return fail(400, errors);
-	return k.transaction(async (trx) => {
-		if (await find(trx, 'area', code.code)) return fail(409, { code: `An area ${code.code} exists already.` });
-		await trx('areas').insert({ code: code.code, name: name.name });
-		return { ok: true as const, code: code.code };
-	});
-}
+/** The parent of each kind, and the column that points at it. */
+const PARENT = { tool: { kind: 'area', column: 'area_id' }, chamber: { kind: 'tool', column: 'tool_id' } } as const;
 
-/** Create a tool in a live area. */
-export async function addTool(input: { code: unknown; name?: unknown; area: unknown }, k: Knex = db()): Promise<EditResult<{ code: string }>> {
-	const code = checkCode('tool', input.code);
-	const area = checkCode('area', input.area);
+/**
+ * Create an area, a tool in a live area (`parent` is the area's code) or a chamber in a live tool
+ * (`parent` is the tool's code). The name defaults to the code.
+ */
+export async function addEntry(kind: Kind, input: { code: unknown; name?: unknown; parent?: unknown }, k: Knex = db()): Promise<EditResult<{ code: string }>> {
+	const code = checkCode(kind, input.code);
 	const name = checkName(input.name, code.ok ? code.code : undefined);
+	const up = kind === 'area' ? null : PARENT[kind];
+	const parent = up ? checkCode(up.kind, input.parent) : null;
 	const errors: FieldErrors = {};
 	if (!code.ok) errors.code = code.message;
-	if (!area.ok) errors.area = area.message;
 	if (!name.ok) errors.name = name.message;
-	if (!code.ok || !area.ok || !name.ok) return fail(400, errors);
+	if (up && parent && !parent.ok) errors[up.kind] = input.parent ? parent.message : `Choose the ${up.kind} it belongs to.`;
+	if (!code.ok || !name.ok || (parent && !parent.ok)) return fail(400, errors);
 	return k.transaction(async (trx) => {
-		if (await find(trx, 'tool', code.code)) return fail(409, { code: `A tool ${code.code} exists already.` });
-		const parent = await liveParent(trx, 'area', area.code, 'area');
-		if (!('id' in parent)) return fail(404, parent);
-		await trx('tools').insert({ code: code.code, name: name.name, area_id: parent.id });
-		return { ok: true as const, code: code.code };
-	});
-}
-
-/** Create a chamber in a live tool. */
-export async function addChamber(input: { code: unknown; name?: unknown; tool: unknown }, k: Knex = db()): Promise<EditResult<{ code: string }>> {
-	const code = checkCode('chamber', input.code);
-	const tool = checkCode('tool', input.tool);
-	const name = checkName(input.name, code.ok ? code.code : undefined);
-	const errors: FieldErrors = {};
-	if (!code.ok) errors.code = code.message;
-	if (!tool.ok) errors.tool = tool.message;
-	if (!name.ok) errors.name = name.message;
-	if (!code.ok || !tool.ok || !name.ok) return fail(400, errors);
-	return k.transaction(async (trx) => {
-		const existing = await find(trx, 'chamber', code.code);
-		if (existing) return fail(409, { code: await chamberExists(trx, code.code) });
-		const parent = await liveParent(trx, 'tool', tool.code, 'tool');
-		if (!('id' in parent)) return fail(404, parent);
-		await trx('chambers').insert({ code: code.code, name: name.name, tool_id: parent.id, created_at: now() });
+		if (await find(trx, kind, code.code))
+			return fail(409, { code: kind === 'chamber' ? await chamberExists(trx, code.code) : `${kind === 'area' ? 'An area' : 'A tool'} ${code.code} exists already.` });
+		const row: Record<string, unknown> = { code: code.code, name: name.name };
+		if (up && parent?.ok) {
+			const p = await liveParent(trx, up.kind, parent.code, up.kind);
+			if (!('id' in p)) return fail(404, p);
+			row[up.column] = p.id;
+		}
+		if (kind === 'chamber') row.created_at = now();
+		await trx(TABLE[kind]).insert(row);
 		return { ok: true as const, code: code.code };
 	});
 }

@@ -7,7 +7,7 @@ import fs from 'node:fs';
 import path from 'node:path';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { useTempDb } from '../../helpers/temp-db.ts';
-import { addArea, addChamber, addTool, checkCode, moveEntry, renameEntry, restoreEntry, retireEntry } from '../../../src/lib/server/structure-edits.ts';
+import { addEntry, checkCode, moveEntry, renameEntry, restoreEntry, retireEntry } from '../../../src/lib/server/structure-edits.ts';
 import { parseRegistration, registerChambers } from '../../../src/lib/server/chamber-registration.ts';
 import { listChambers, listStructure } from '../../../src/lib/server/fleet-structure.ts';
 import { ingestFile } from '../../../src/lib/server/ingest/index.ts';
@@ -38,16 +38,16 @@ describe('codes and names', () => {
 
 describe('building a fab by hand', () => {
 	it('creates an area, a tool in it and a chamber in that, with 400/404/409 naming the field', async () => {
-		expect(await addArea({ code: 'PLX', name: 'Plasma X' })).toEqual({ ok: true, code: 'PLX' });
-		expect(await addArea({ code: 'PLX' })).toMatchObject({ ok: false, status: 409, errors: { code: 'An area PLX exists already.' } });
-		expect(await addTool({ code: 'PX01', area: 'NOPE' })).toMatchObject({ ok: false, status: 404, errors: { area: 'There is no area NOPE.' } });
-		expect(await addTool({ code: 'PX01', area: 'PLX' })).toEqual({ ok: true, code: 'PX01' });
-		expect(await addTool({ code: 'PX02', name: 'Etcher two', area: 'PLX' })).toEqual({ ok: true, code: 'PX02' });
-		const bad = await addChamber({ code: 'has space', tool: '', name: 'x'.repeat(121) });
+		expect(await addEntry('area', { code: 'PLX', name: 'Plasma X' })).toEqual({ ok: true, code: 'PLX' });
+		expect(await addEntry('area', { code: 'PLX' })).toMatchObject({ ok: false, status: 409, errors: { code: 'An area PLX exists already.' } });
+		expect(await addEntry('tool', { code: 'PX01', parent: 'NOPE' })).toMatchObject({ ok: false, status: 404, errors: { area: 'There is no area NOPE.' } });
+		expect(await addEntry('tool', { code: 'PX01', parent: 'PLX' })).toEqual({ ok: true, code: 'PX01' });
+		expect(await addEntry('tool', { code: 'PX02', name: 'Etcher two', parent: 'PLX' })).toEqual({ ok: true, code: 'PX02' });
+		const bad = await addEntry('chamber', { code: 'has space', parent: '', name: 'x'.repeat(121) });
 		expect(bad).toMatchObject({ ok: false, status: 400 });
 		expect(Object.keys((bad as { errors: object }).errors).sort()).toEqual(['code', 'name', 'tool']);
-		expect(await addChamber({ code: 'PX01-A', tool: 'PX01' })).toEqual({ ok: true, code: 'PX01-A' });
-		expect(await addChamber({ code: 'PX01-A', tool: 'PX02' })).toMatchObject({ ok: false, status: 409, errors: { code: 'Chamber PX01-A exists already, in tool PX01 (area PLX).' } });
+		expect(await addEntry('chamber', { code: 'PX01-A', parent: 'PX01' })).toEqual({ ok: true, code: 'PX01-A' });
+		expect(await addEntry('chamber', { code: 'PX01-A', parent: 'PX02' })).toMatchObject({ ok: false, status: 409, errors: { code: 'Chamber PX01-A exists already, in tool PX01 (area PLX).' } });
 		const chambers = await listChambers(env.k);
 		expect(chambers.map((c) => [c.code, c.name, c.toolCode, c.areaCode])).toEqual([['PX01-A', 'PX01-A', 'PX01', 'PLX']]);
 	});
@@ -70,7 +70,7 @@ describe('building a fab by hand', () => {
 		expect(await retireEntry('chamber', 'PX01-A')).toMatchObject({ ok: false, status: 409 });
 		expect(await retireEntry('tool', 'PX02')).toEqual({ ok: true });
 		expect(await moveEntry('chamber', 'PX01-A', 'PX01')).toMatchObject({ ok: false, errors: { code: expect.stringContaining('retired') } });
-		expect(await addChamber({ code: 'PX02-B', tool: 'PX02' })).toMatchObject({ ok: false, status: 404, errors: { tool: expect.stringContaining('retired') } });
+		expect(await addEntry('chamber', { code: 'PX02-B', parent: 'PX02' })).toMatchObject({ ok: false, status: 404, errors: { tool: expect.stringContaining('retired') } });
 		expect(await restoreEntry('chamber', 'PX01-A')).toMatchObject({ ok: false, status: 409, errors: { code: expect.stringContaining('tool PX02 is retired') } });
 		expect(await restoreEntry('tool', 'PX02')).toEqual({ ok: true });
 		expect(await restoreEntry('chamber', 'PX01-A')).toEqual({ ok: true });

@@ -1,7 +1,7 @@
 import { fail } from '@sveltejs/kit';
 import { listStructure } from '$lib/server/fleet-structure';
 import { UNASSIGNED } from '$lib/server/ingest/catalog';
-import { addArea, addChamber, addTool, isKind, moveEntry, renameEntry, restoreEntry, retireEntry, type EditResult } from '$lib/server/structure-edits';
+import { addEntry, isKind, moveEntry, renameEntry, restoreEntry, retireEntry, type EditResult } from '$lib/server/structure-edits';
 import type { Actions, PageServerLoad } from './$types';
 
 export const load: PageServerLoad = async () => ({ structure: await listStructure(), unassigned: UNASSIGNED.code });
@@ -33,17 +33,17 @@ export const actions: Actions = {
 	area: async ({ request }) => {
 		const f = await request.formData();
 		const values = { code: text(f, 'code'), name: text(f, 'name') };
-		return created('area', await addArea(values), values, 'Area');
+		return created('area', await addEntry('area', values), values, 'Area');
 	},
 	tool: async ({ request }) => {
 		const f = await request.formData();
 		const values = { code: text(f, 'code'), name: text(f, 'name'), area: text(f, 'area') };
-		return created('tool', await addTool(values), values, 'Tool');
+		return created('tool', await addEntry('tool', { ...values, parent: values.area }), values, 'Tool');
 	},
 	chamber: async ({ request }) => {
 		const f = await request.formData();
 		const values = { code: text(f, 'code'), name: text(f, 'name'), tool: text(f, 'tool') };
-		return created('chamber', await addChamber(values), values, 'Chamber');
+		return created('chamber', await addEntry('chamber', { ...values, parent: values.tool }), values, 'Chamber');
 	},
 	rename: async ({ request }) => {
 		const f = await request.formData();
