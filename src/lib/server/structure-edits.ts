@@ -108,6 +108,7 @@ export async function renameEntry(kind: Kind, code: string, rawName: unknown, k:
 /** Move a tool to another area, or a chamber to another tool (assigning a registered chamber is such a move). */
 export async function moveEntry(kind: 'tool' | 'chamber', code: string, rawTarget: unknown, k: Knex = db()): Promise<EditResult<{ from: string; to: string }>> {
 	const parentKind = kind === 'tool' ? 'area' : 'tool';
+	if (rawTarget === '' || rawTarget === undefined || rawTarget === null) return fail(400, { to: `Choose the ${parentKind} to move it to.` });
 	const target = checkCode(parentKind, rawTarget);
 	if (!target.ok) return fail(400, { to: target.message });
 	return k.transaction(async (trx) => {

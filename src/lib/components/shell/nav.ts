@@ -21,8 +21,7 @@ export const NAV: NavItem[] = [
 	{ href: '/uploads', label: 'Uploads', role: 'engineer', match: ['/uploads'] },
 	// Viewers may read feature-set changes but have no uploads page to reach them from.
 	{ href: '/uploads/feature-sets', label: 'Feature sets', role: 'viewer', only: 'viewer', match: ['/uploads/feature-sets'] },
-	{ href: '/admin/policy', label: 'Policy', role: 'admin', match: ['/admin/policy', '/admin/cause-codes'] },
-	{ href: '/admin/structure', label: 'Structure', role: 'admin', match: ['/admin/structure'] },
+	{ href: '/admin/policy', label: 'Policy', role: 'admin', match: ['/admin/policy', '/admin/cause-codes', '/admin/structure'] },
 	{ href: '/admin/users', label: 'People', role: 'admin', match: ['/admin/users'] },
 	{ href: '/admin/tokens', label: 'Tokens', role: 'admin', match: ['/admin/tokens'] },
 	// Everyone's own API tokens; admins reach theirs from the service-token page.
