@@ -3,6 +3,7 @@
  * answered as `{ error, location }` like the ingest route's refusals.
  */
 import { json } from '@sveltejs/kit';
+import { jsonErrorOffset } from './json-error-offset.ts';
 
 /** JSON bodies of the API besides ingest are small: a list of 2,000 chambers is ≈ 150 kB. */
 export const API_JSON_LIMIT_BYTES = 1024 * 1024;
@@ -25,8 +26,8 @@ export async function readJsonBody(request: Request): Promise<{ ok: true; value:
 		return { ok: true, value: JSON.parse(text) };
 	} catch (e) {
 		const message = e instanceof Error ? e.message : String(e);
-		const pos = /position (\d+)/.exec(message);
-		const location = pos ? lineColumn(text, Number(pos[1])) : null;
+		const offset = jsonErrorOffset(text);
+		const location = offset === null ? null : lineColumn(text, offset);
 		return {
 			ok: false,
 			response: json({ error: `The body is not valid JSON: ${message}`, location: location && { file: null, ...location } }, { status: 400 })
