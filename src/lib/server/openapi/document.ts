@@ -5,7 +5,7 @@
  * `[param]`.
  */
 import { FAB_PATHS } from './paths-fab.ts';
-import { CAMPAIGN_PATHS } from './paths-pending.ts';
+import { CAMPAIGN_PATHS } from './paths-automation.ts';
 import { VIEW_PATHS } from './paths-views.ts';
 import { SCHEMAS } from './schemas.ts';
 import type { PathItem } from './types.ts';

@@ -1,6 +1,7 @@
 /**
  * Qualification campaigns, fleet matching and alarms: the contract fab automation relies on (issue 12
- * item 5). These names and shapes are fixed; the routes are built beside this document.
+ * item 5). These names and request shapes are fixed by the issue; check the answers against the routes
+ * when they change.
  */
 import { AUTH_ANSWERS, answer, jsonBody, pathParam, problem, query, ref, type PathItem } from './types.ts';
 
