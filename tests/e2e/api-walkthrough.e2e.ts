@@ -6,7 +6,9 @@
  * tokens made and revoked on /account/tokens, and what a token's owner does recorded under their name.
  */
 import path from 'node:path';
-import { describe, expect, inject, it } from 'vitest';
+import { afterAll, beforeAll, describe, expect, inject, it } from 'vitest';
+import type { Browser } from 'playwright-core';
+import { launch, screenshot, signInTo } from './browser.ts';
 import { openDb } from '../../src/lib/server/db.ts';
 import { runTsx } from '../load/server.ts';
 import { TEST_USERS } from './global-setup.ts';
@@ -82,12 +84,12 @@ describe('README walk-through: token → chambers → ingest with register', () 
 	});
 
 	it('3. ingests a file: known chambers stored, an unknown one registered into UNASSIGNED and named', async () => {
-		const csv = [HEADER, row('WKW-1', 'WK01-A', 1), row('WKW-2', 'WK01-B', 2), row('WKW-3', 'WK07-C', 3)].join('\n') + '\n';
+		const csv = [HEADER, row('WKW-1', 'WK01-A', 1), row('WKW-2', 'WK01-B', 2), row('WKW-3', 'WK07-C', 3), row('WKW-4', 'WK07-D', 4)].join('\n') + '\n';
 		const r = await api(admin, '/api/ingest?name=walk.csv', { csv });
 		expect(r.status).toBe(200);
 		const report = await r.json();
-		expect(report.rows).toMatchObject({ total: 3, accepted: 3, rejected: 0 });
-		expect(report.created.chambers).toEqual(['WK07-C']);
+		expect(report.rows).toMatchObject({ total: 4, accepted: 4, rejected: 0 });
+		expect(report.created.chambers).toEqual(['WK07-C', 'WK07-D']);
 		const list = await (await api(admin, '/api/chambers')).json();
 		expect(list.chambers).toContainEqual(expect.objectContaining({ code: 'WK07-C', tool: 'UNASSIGNED' }));
 		const k = db();
@@ -166,5 +168,46 @@ describe('the API document and personal tokens', () => {
 		const revoked = await request('/account/tokens?/revoke', { cookie, form: { id: String(id) } });
 		expect(revoked.status).toBe(200);
 		expect((await api(token, '/api/me')).status).toBe(401);
+	});
+});
+
+describe('in Chromium', () => {
+	let browser: Browser;
+	beforeAll(async () => {
+		browser = await launch();
+	});
+	afterAll(async () => {
+		await browser?.close();
+	});
+
+	it('an admin assigns a registered chamber from the waiting list, after being told to choose a tool', async () => {
+		const page = await browser.newPage({ viewport: { width: 1280, height: 800 } });
+		await signInTo(page, 'admin', '/admin/structure');
+		const row = page.getByTestId('waiting-WK07-D');
+		await row.getByRole('button', { name: 'Assign chamber WK07-D' }).click();
+		await row.getByText('Choose the tool to move it to.').waitFor();
+		await row.getByLabel('Tool of WK07-D').selectOption('WK01');
+		await row.getByRole('button', { name: 'Assign chamber WK07-D' }).click();
+		const placed = page.getByTestId('chamber-WK07-D');
+		await placed.getByText('Moved from UNASSIGNED to WK01.').waitFor();
+		expect(await page.getByTestId('waiting-WK07-D').count()).toBe(0);
+		await screenshot(page, 'structure-assigned');
+		await page.close();
+	});
+
+	it('an engineer makes a token on their account page and sees it once', async () => {
+		const page = await browser.newPage({ viewport: { width: 1280, height: 800 } });
+		await signInTo(page, 'engineer', '/account/tokens');
+		await page.getByRole('button', { name: 'Create token' }).click();
+		await page.getByText('Name the token').waitFor();
+		await page.getByLabel('Name').fill('browser-made');
+		await page.getByRole('button', { name: 'Create token' }).click();
+		const token = (await page.getByTestId('new-token').textContent())?.trim() ?? '';
+		expect(token).toMatch(/^lst_[A-Za-z0-9_-]{43}$/);
+		expect((await (await api(token, '/api/me')).json()).user.username).toBe(TEST_USERS.engineer);
+		await page.reload();
+		expect(await page.getByTestId('new-token').count()).toBe(0);
+		await expect(page.getByText('browser-made').count()).resolves.toBeGreaterThan(0);
+		await page.close();
 	});
 });
