@@ -15,6 +15,7 @@ import {
 import { mean, sampleStandardDeviation } from 'simple-statistics';
 import { crossValidatedScores } from '../monitoring/cross-validation.ts';
 import { gappedAutocorrelation } from '../monitoring/ewma-autocorrelation.ts';
+import { formatTime } from '../components/display/format.ts';
 import { db } from './db.ts';
 import { getSetting } from './settings.ts';
 import { now } from './time.ts';
@@ -82,7 +83,7 @@ export async function goldenCandidates(
 		if (alarm) excluded = `inside open alarm #${alarm.id} (${alarm.rule})`;
 		const s = seasoningPos.get(r.id);
 		if (!excluded && s)
-			excluded = `seasoning: wafer ${s.n} of ${policy.seasoningWafers} after the wet clean of ${new Date(s.cleanAt).toISOString().slice(0, 16)}Z`;
+			excluded = `seasoning: wafer ${s.n} of ${policy.seasoningWafers} after the wet clean of ${formatTime(s.cleanAt, 'UTC')}`;
 		return { id: r.id, waferId: r.wafer_id, lotId: r.lot_id, processedAt: at, golden: Boolean(r.golden), excluded };
 	});
 }
