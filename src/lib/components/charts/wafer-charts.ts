@@ -134,8 +134,8 @@ export function spectrumOption(spectrum: WaferView['spectrum'], c: ChartColors, 
 		},
 		xAxis: { type: 'value', min: 'dataMin', max: 'dataMax', name: 'wavelength (nm)', nameLocation: 'middle', nameGap: 26, ...axis, splitLine: { show: false } },
 		yAxis: z
-			? { type: 'value', name: 'difference from golden mean (golden σ)', nameTextStyle: { align: 'left' }, ...axis, axisLabel: { ...axis.axisLabel, formatter: compactNumber, hideOverlap: true } }
-			: { type: mode === 'log' ? 'log' : 'value', name: mode === 'log' ? 'intensity (counts, log)' : 'intensity (counts)', nameTextStyle: { align: 'left' }, ...axis, axisLabel: { ...axis.axisLabel, formatter: compactNumber, hideOverlap: true } },
+			? { type: 'value', name: 'difference from golden mean (golden σ)', ...axis, nameTextStyle: { ...axis.nameTextStyle, align: 'left' }, axisLabel: { ...axis.axisLabel, formatter: compactNumber, hideOverlap: true } }
+			: { type: mode === 'log' ? 'log' : 'value', name: mode === 'log' ? 'intensity (counts, log)' : 'intensity (counts)', ...axis, nameTextStyle: { ...axis.nameTextStyle, align: 'left' }, axisLabel: { ...axis.axisLabel, formatter: compactNumber, hideOverlap: true } },
 		dataZoom: [{ type: 'inside', filterMode: 'none' }],
 		series: [
 			...band,
