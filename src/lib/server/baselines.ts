@@ -15,7 +15,6 @@ import {
 import { mean, sampleStandardDeviation } from 'simple-statistics';
 import { crossValidatedScores } from '../monitoring/cross-validation.ts';
 import { gappedAutocorrelation } from '../monitoring/ewma-autocorrelation.ts';
-import { formatTime } from '../components/display/format.ts';
 import { db } from './db.ts';
 import { getSetting } from './settings.ts';
 import { now } from './time.ts';
@@ -83,7 +82,7 @@ export async function goldenCandidates(
 		if (alarm) excluded = `inside open alarm #${alarm.id} (${alarm.rule})`;
 		const s = seasoningPos.get(r.id);
 		if (!excluded && s)
-			excluded = `seasoning: wafer ${s.n} of ${policy.seasoningWafers} after the wet clean of ${formatTime(s.cleanAt, 'UTC')}`;
+			excluded = `seasoning: wafer ${s.n} of ${policy.seasoningWafers} after the wet clean before it`;
 		return { id: r.id, waferId: r.wafer_id, lotId: r.lot_id, processedAt: at, golden: Boolean(r.golden), excluded };
 	});
 }
