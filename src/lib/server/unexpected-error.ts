@@ -29,16 +29,15 @@ export interface UnexpectedInput {
 
 /**
  * Log an unexpected error under a new id and answer what the page may show.
- * @returns `{ message, errorId }` for App.Error
+ * @returns `{ message, errorId }` for App.Error (no id for a 404: nothing went wrong)
  */
-export function reportUnexpected(input: UnexpectedInput, log: (line: string) => void = (l) => console.error(l)): { message: string; errorId: string } {
+export function reportUnexpected(input: UnexpectedInput, log: (line: string) => void = (l) => console.error(l)): { message: string; errorId?: string } {
+	// An address with no page is not a fault of Lockstep's: no id, no log line (probes would flood the log).
+	if (input.status === 404) return { message: 'There is no page at this address.' };
 	const errorId = newErrorId();
 	const e = input.error;
 	const detail = e instanceof Error ? (e.stack ?? `${e.name}: ${e.message}`) : String(e);
 	log(`[lockstep] error ${errorId} · ${input.status} · ${input.event.request.method} ${input.event.url.pathname} (route ${input.event.route.id ?? 'none'})\n${detail}`);
-	const message =
-		input.status === 404
-			? 'There is no page at this address.'
-			: 'Something went wrong on Lockstep’s side. Nothing you entered was lost; try again, and if it happens again give your administrator the reference below.';
+	const message = 'Something went wrong on Lockstep’s side. Nothing you entered was lost; try again, and if it happens again give your administrator the reference below.';
 	return { message, errorId };
 }

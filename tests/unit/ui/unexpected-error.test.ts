@@ -18,13 +18,33 @@ describe('an unexpected error', () => {
 		expect(out.message).not.toMatch(/SQLITE|\/var\/lib|at .*\.ts|Error:/);
 	});
 
-	it('says "no page" for an unmatched address', () => {
-		const out = reportUnexpected({ error: new Error('Not found: /nope'), status: 404, message: 'Not Found', event }, () => {});
-		expect(out.message).toBe('There is no page at this address.');
+	it('says "no page" for an unmatched address, without an id or a log line', () => {
+		const lines: string[] = [];
+		const out = reportUnexpected({ error: new Error('Not found: /nope'), status: 404, message: 'Not Found', event }, (l) => lines.push(l));
+		expect(out).toEqual({ message: 'There is no page at this address.' });
+		expect(lines).toHaveLength(0);
 	});
 
 	it('draws ids that differ (40 random bits)', () => {
 		const ids = new Set(Array.from({ length: 500 }, newErrorId));
 		expect(ids.size).toBe(500);
+	});
+});
+
+describe('the hook', () => {
+	it('hooks.server.ts handleError answers an id and logs it', async () => {
+		const { handleError } = await import('../../../src/hooks.server');
+		const lines: string[] = [];
+		const orig = console.error;
+		console.error = (l: string) => lines.push(l);
+		try {
+			const out = (await handleError({ error: new Error('boom: secret detail'), status: 500, message: 'Internal Error', event: event as never })) as { message: string; errorId: string };
+			expect(out.errorId).toBeTruthy();
+			expect(out.message).not.toContain('boom');
+			expect(lines.join('\n')).toContain(out.errorId);
+			expect(lines.join('\n')).toContain('boom: secret detail');
+		} finally {
+			console.error = orig;
+		}
 	});
 });
