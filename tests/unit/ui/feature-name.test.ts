@@ -23,6 +23,13 @@ describe('nameFeature: one name for a feature column', () => {
 		}
 	});
 
+	it('says when a channel sits off its line centre, so two channels never share one name', () => {
+		// 0.7 nm off: named with its channel when the engine's window takes it, else by wavelength alone
+		expect(['N₂ 337.1 nm (ch. 337.8)', 'OES 337.8 nm']).toContain(featureLabel('oes_337.8'));
+		expect(featureLabel('oes_337.8')).not.toBe(featureLabel('oes_337.1'));
+		expect(featureLabel('oes_337.3')).toBe('N₂ 337.1 nm');
+	});
+
 	it('names a channel with no listed line by its wavelength, and keeps a sensor column as it is', () => {
 		expect(nameFeature('oes_512.3')).toMatchObject({ label: 'OES 512.3 nm', identified: false });
 		expect(nameFeature('rf_reflected_w')).toMatchObject({ label: 'rf_reflected_w', identified: false, note: null });

@@ -6,14 +6,17 @@
  */
 import type { Contributor, WaferView } from '$lib/server/views/wafer-view';
 import { LEAK_RISE_Z } from '$lib/monitoring/leak-signature';
-import { chemical } from '$lib/components/display/feature-name';
+import { channelWavelength, chemical, OFF_CENTRE_NM } from '$lib/components/display/feature-name';
 import { baseAxis, baseTooltip, type ChartColors, type EChartsCoreOption } from './echarts';
 import { value } from './format';
 
 /** "N₂ 337.1 nm" for an OES channel on a listed line, else the column ("oes_512.3", "backside_he_sccm"). */
 export function contributorLabel(c: Contributor): string {
 	const l = c.lines[0];
-	return l ? `${chemical(l.species)} ${l.wavelengthNm.toFixed(1)} nm` : c.feature;
+	if (!l) return c.feature;
+	const at = c.wavelengthNm ?? channelWavelength(c.feature);
+	const off = at !== null && Math.abs(at - l.wavelengthNm) > OFF_CENTRE_NM ? ` (ch. ${at.toFixed(1)})` : '';
+	return `${chemical(l.species)} ${l.wavelengthNm.toFixed(1)} nm${off}`;
 }
 
 /** Bars below this share of the statistic are not drawn (they would read as "0 %"). */

@@ -24,6 +24,9 @@ export function channelWavelength(feature: string): number | null {
 	return m ? Number(m[1]) : null;
 }
 
+/** A channel further than this from its line's centre carries its own wavelength in the label (half a typical 1 nm resolution). */
+export const OFF_CENTRE_NM = 0.5;
+
 export interface FeatureName {
 	/** what to print: "N₂ 337.1 nm", "OES 512.3 nm" (no listed line within the window), or the sensor's column */
 	label: string;
@@ -41,7 +44,9 @@ export function nameFeature(feature: string): FeatureName {
 	if (nm === null) return { label: feature, code: feature, note: null, identified: false };
 	const line = identifyFeature(feature)[0];
 	if (!line) return { label: `OES ${nm.toFixed(1)} nm`, code: feature, note: null, identified: false };
-	return { label: `${chemical(line.species)} ${line.wavelengthNm.toFixed(1)} nm`, code: feature, note: chemical(line.note), identified: true };
+	// A channel off the line's centre says so, so two channels near one line do not read as the same name.
+	const off = Math.abs(nm - line.wavelengthNm) > OFF_CENTRE_NM ? ` (ch. ${nm.toFixed(1)})` : '';
+	return { label: `${chemical(line.species)} ${line.wavelengthNm.toFixed(1)} nm${off}`, code: feature, note: chemical(line.note), identified: true };
 }
 
 /** Just the label: `featureLabel('oes_337.1')` → "N₂ 337.1 nm". */
