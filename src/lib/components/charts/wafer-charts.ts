@@ -116,7 +116,7 @@ export function spectrumOption(spectrum: WaferView['spectrum'], c: ChartColors, 
 			]
 		: hasBand
 			? [
-					{ name: 'golden ± 3σ', type: 'line', stack: 'band', data: lower, showSymbol: false, lineStyle: { opacity: 0 }, tooltip: { show: false }, silent: true },
+					{ name: 'golden ± 3σ', type: 'line', stack: 'band', data: lower, showSymbol: false, lineStyle: { color: c.ok, width: 0.75, opacity: 0.8 }, itemStyle: { color: c.ok }, tooltip: { show: false }, silent: true },
 					{ name: 'golden ± 3σ', type: 'line', stack: 'band', data: width, showSymbol: false, lineStyle: { color: c.ok, width: 0.75, opacity: 0.8 }, areaStyle: { color: c.ok, opacity: 0.3 }, itemStyle: { color: c.ok }, silent: true },
 					{ name: 'golden mean', type: 'line', data: spectrum.map((p) => [p.wavelengthNm, Math.max(floor, p.mean)]), showSymbol: false, lineStyle: { color: c.ok, width: 1, type: 'dashed' }, itemStyle: { color: c.ok } }
 				]
