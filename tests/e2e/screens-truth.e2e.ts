@@ -71,7 +71,15 @@ describe('severity reads right on the fleet map', () => {
 		await expect.poll(() => page.getByTestId('updated').textContent()).toMatch(/updated \d\d:\d\d:\d\d/);
 		expect(await page.evaluate(() => document.documentElement.dataset.theme)).toBe(theme);
 		const { panel, cells } = await page.evaluate(() => ({
-			panel: getComputedStyle(document.documentElement).getPropertyValue('--ls-surface-1'),
+			// the panel colour as the browser resolves it (the built CSS may shorten #ffffff to #fff)
+			panel: (() => {
+				const probe = document.createElement('div');
+				probe.style.background = 'var(--ls-surface-1)';
+				document.body.append(probe);
+				const c = getComputedStyle(probe).backgroundColor;
+				probe.remove();
+				return c;
+			})(),
 			cells: [...document.querySelectorAll<HTMLElement>('[data-testid="heatmap"] a[data-cell]')].map((a) => ({
 				label: a.getAttribute('aria-label') ?? '',
 				colour: getComputedStyle(a).backgroundColor
