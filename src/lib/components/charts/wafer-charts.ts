@@ -150,7 +150,7 @@ export function spectrumOption(spectrum: WaferView['spectrum'], c: ChartColors, 
 				symbolSize: 9,
 				itemStyle: { color: c.alarm, borderColor: c.surface1, borderWidth: 1 },
 				label: { position: 'top', color: c.alarm, fontSize: 10, formatter: (p: { value: number[] }) => `${p.value[0]}` },
-				labelLayout: { hideOverlap: true },
+				labelLayout: { moveOverlap: 'shiftY', hideOverlap: true },
 				tooltip: { show: false }
 			}
 		]
