@@ -11,9 +11,13 @@ declare global {
 		}
 		interface Error {
 			message: string;
+			/** set for unexpected errors: the id the server log carries (hooks.server.ts handleError) */
+			errorId?: string;
 		}
 		interface PageData {
 			user?: App.Locals['user'];
+			/** the zone every time is shown in (root layout; src/lib/server/clock.ts) */
+			zone?: string;
 		}
 	}
 }

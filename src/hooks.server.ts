@@ -1,4 +1,5 @@
-import { error, type Handle } from '@sveltejs/kit';
+import { error, type Handle, type HandleServerError } from '@sveltejs/kit';
+import { reportUnexpected } from '$lib/server/unexpected-error';
 import { sequence } from '@sveltejs/kit/hooks';
 import { luciaFor } from '$lib/server/auth';
 import { decide } from '$lib/server/route-policy';
@@ -114,3 +115,6 @@ const freshness: Handle = async ({ event, resolve }) => {
 };
 
 export const handle = sequence(headers, session, bearer, authorize, freshness);
+
+/** An unexpected error: logged with a reference id, shown without its text or stack (see unexpected-error.ts). */
+export const handleError: HandleServerError = (input) => reportUnexpected(input);

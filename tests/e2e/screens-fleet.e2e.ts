@@ -75,7 +75,8 @@ describe('fleet heatmap → chamber → wafer-step', () => {
 		await page.waitForURL(/\/wafers\/\d+/);
 		const top = await page.getByTestId('contributors').textContent();
 		expect(N2_BANDS.filter((b) => top!.includes(b)).length).toBeGreaterThanOrEqual(2);
-		expect(top).toContain('N2');
+		expect(top).toContain('N₂');
+		expect(top).not.toMatch(/N2 /);
 		expect(await page.getByTestId('leak-notice').textContent()).toMatch(/not a safety system/);
 		await expect.poll(() => page.getByTestId('contrib-chart').locator('canvas').count()).toBeGreaterThan(0);
 		await screenshot(page, 'screens-wafer');

@@ -4,25 +4,25 @@
  *
  * Design (Lockstep's own stops, not a named scientific colormap and not a traffic light):
  * - 0 ≤ r < 1, in control: a calm blue-slate ramp that starts just above the panel colour, so a
- *   quiet chamber recedes and a chamber creeping towards its limit slowly brightens (dark theme)
- *   or darkens (light theme).
- * - r = 1, the limit: a hard step in hue (blue → vermilion) and in lightness (at least 12 L* units),
- *   so "at the limit" never blends into "nearly at the limit".
- * - 1 ≤ r ≤ 3, beyond: one warm hue family escalating in lightness — towards a glowing peach-white
- *   on the dark control-room theme, towards a deep oxblood on the light office theme. r ≥ 3 is
- *   clamped: past three times the limit every bucket is equally urgent.
- * Lightness runs one way over the whole scale in each theme, so the order survives in greyscale and
- * for every kind of colour vision; hue only adds the in/out-of-control split.
+ *   quiet chamber recedes and a chamber creeping towards its limit slowly stands out.
+ * - r = 1, the limit: a hard step in hue (blue → burnt orange) and in lightness, so "at the limit"
+ *   never blends into "nearly at the limit".
+ * - 1 ≤ r ≤ 3, beyond: the same story in both themes — burnt orange at the limit turning to a hot
+ *   crimson at three times it, with chroma rising all the way (never washing out to a pale tint,
+ *   which reads as "milder" however bright it is). r ≥ 3 is clamped: past three times the limit every
+ *   bucket is equally urgent.
+ * "Stronger" is measured as the colour difference from the panel the cell sits on (CIE76 ΔE*ab):
+ * it rises with r over the whole scale in both themes. Lightness moves away from the panel too
+ * (lighter on the dark theme, darker on the light one), so the order survives where hue is lost.
  *
- * How colour-blind safety was checked (tests/unit/ui/heat-scale.test.ts repeats it on every run):
- * - CIELAB L* (CIE 15:2004, D65, sRGB decoded per IEC 61966-2-1:1999) sampled every 0.01 of r is
- *   strictly monotonic across the whole scale, in both themes.
- * - The step at the limit was simulated for protanopia, deuteranopia and tritanopia with the
- *   severity-1.0 matrices of Machado, Oliveira & Fernandes (2009), "A physiologically-based model
- *   for simulation of color vision deficiency", IEEE TVCG 15(6), applied in linear RGB; the colour
- *   difference (CIE76 ΔE*ab) across the step stays far above the difference between neighbouring
- *   samples inside either ramp, for every simulated vision, and its L* jump stays ≥ 7 units under
- *   every simulation (so the limit shows even where the hue change is lost).
+ * How this was checked (tests/unit/ui/heat-scale.test.ts repeats it on every run):
+ * - ΔE*ab from the theme's panel colour (--ls-surface-1 in app.css), CIELAB per CIE 15:2004 (D65,
+ *   sRGB decoded per IEC 61966-2-1:1999), sampled every 0.05 of r, rises strictly in both themes;
+ *   chroma never falls beyond the limit; the hue at the limit and at the top agree across themes.
+ * - Protanopia, deuteranopia and tritanopia simulated with the severity-1.0 matrices of Machado,
+ *   Oliveira & Fernandes (2009), "A physiologically-based model for simulation of color vision
+ *   deficiency", IEEE TVCG 15(6), in linear RGB: the L* distance from the panel never shrinks as r
+ *   grows, and the step at the limit stays a large colour difference with an L* jump ≥ 7 units.
  *
  * Colour maths is written here rather than taken from a colour library: Lockstep needs only
  * sRGB ↔ CIELAB (two published formulas, ~40 lines) and the heatmap calls it for thousands of cells.
@@ -54,26 +54,24 @@ export const HEAT_STOPS: Readonly<Record<HeatTheme, HeatRamp>> = {
 		inControl: [
 			{ ratio: 0, color: '#1c2937' },
 			{ ratio: 0.5, color: '#25415c' },
-			{ ratio: 1, color: '#35638a' }
+			{ ratio: 1, color: '#2d5376' }
 		],
 		beyond: [
-			{ ratio: 1, color: '#e2653a' },
-			{ ratio: 1.6, color: '#f08a40' },
-			{ ratio: 2.2, color: '#f9b072' },
-			{ ratio: 3, color: '#ffe3cc' }
+			{ ratio: 1, color: '#b06c2d' },
+			{ ratio: 3, color: '#fb5473' }
 		]
 	},
 	light: {
 		inControl: [
 			{ ratio: 0, color: '#e8eef4' },
 			{ ratio: 0.5, color: '#c2d4e5' },
-			{ ratio: 1, color: '#8caecf' }
+			{ ratio: 1, color: '#9fbfdb' }
 		],
 		beyond: [
-			{ ratio: 1, color: '#de6430' },
-			{ ratio: 1.6, color: '#bf4325' },
-			{ ratio: 2.2, color: '#952a22' },
-			{ ratio: 3, color: '#561426' }
+			{ ratio: 1, color: '#dc8244' },
+			{ ratio: 1.6, color: '#d05a3b' },
+			{ ratio: 2.2, color: '#ba3336' },
+			{ ratio: 3, color: '#9f002d' }
 		]
 	}
 };
@@ -104,9 +102,18 @@ export function heatColor(ratio: number, theme: HeatTheme): string {
 	const a = stops[i];
 	const b = stops[i + 1];
 	const t = Math.min(Math.max((r - a.ratio) / (b.ratio - a.ratio), 0), 1);
-	const la = hexToLab(a.color);
-	const lb = hexToLab(b.color);
-	return labToHex([0, 1, 2].map((k) => la[k] + (lb[k] - la[k]) * t) as Lab);
+	// Interpolated in LCh (lightness, chroma, hue) rather than straight across L*a*b*: a straight line
+	// between an orange and a crimson cuts inside the hue circle and dulls the colours between stops,
+	// which would make a worse bucket look weaker than a better one.
+	const [La, Ca, ha] = toLch(hexToLab(a.color));
+	const [Lb, Cb, hb] = toLch(hexToLab(b.color));
+	let dh = hb - ha;
+	if (dh > 180) dh -= 360;
+	if (dh < -180) dh += 360;
+	const L = La + (Lb - La) * t;
+	const C = Ca + (Cb - Ca) * t;
+	const h = ((ha + dh * t) * Math.PI) / 180;
+	return labToHex([L, C * Math.cos(h), C * Math.sin(h)]);
 }
 
 /**
@@ -143,6 +150,10 @@ function hexToLab(hex: string): Lab {
 	].map((v, k) => v / WHITE[k]);
 	const [fx, fy, fz] = xyz.map((t) => (t > EPS ? Math.cbrt(t) : t / (3 * (6 / 29) ** 2) + 4 / 29));
 	return [116 * fy - 16, 500 * (fx - fy), 200 * (fy - fz)];
+}
+
+function toLch([L, a, b]: Lab): Lab {
+	return [L, Math.hypot(a, b), (Math.atan2(b, a) * 180) / Math.PI];
 }
 
 function labToHex([L, a, b]: Lab): string {

@@ -82,7 +82,7 @@ export async function goldenCandidates(
 		if (alarm) excluded = `inside open alarm #${alarm.id} (${alarm.rule})`;
 		const s = seasoningPos.get(r.id);
 		if (!excluded && s)
-			excluded = `seasoning: wafer ${s.n} of ${policy.seasoningWafers} after the wet clean of ${new Date(s.cleanAt).toISOString().slice(0, 16)}Z`;
+			excluded = `seasoning: wafer ${s.n} of ${policy.seasoningWafers} after the wet clean before it`;
 		return { id: r.id, waferId: r.wafer_id, lotId: r.lot_id, processedAt: at, golden: Boolean(r.golden), excluded };
 	});
 }

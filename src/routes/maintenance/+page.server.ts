@@ -1,5 +1,6 @@
 import { fail } from '@sveltejs/kit';
-import { fromLocalInput, safeZone } from '$lib/components/display/format';
+import { clockZone } from '$lib/server/clock';
+import { fromLocalInput } from '$lib/components/display/format';
 import { getSetting } from '$lib/server/settings';
 import { logMaintenance, MaintenanceError, MAINTENANCE_KINDS, type MaintenanceKind } from '$lib/server/maintenance';
 import { hasRole } from '$lib/server/roles';
@@ -9,8 +10,8 @@ import type { Actions, PageServerLoad } from './$types';
 
 const DAY = 86_400_000;
 
-export const load: PageServerLoad = async ({ url, locals }) => {
-	const zone = safeZone(locals.user?.timeZone);
+export const load: PageServerLoad = async ({ url, locals, cookies }) => {
+	const zone = clockZone(cookies, locals.user);
 	const sp = url.searchParams;
 	const ignored: string[] = [];
 	const kindRaw = sp.get('kind') ?? '';
@@ -44,9 +45,9 @@ export const load: PageServerLoad = async ({ url, locals }) => {
 };
 
 export const actions: Actions = {
-	log: async ({ request, locals }) => {
+	log: async ({ request, locals, cookies }) => {
 		const f = await request.formData();
-		const zone = safeZone(locals.user!.timeZone);
+		const zone = clockZone(cookies, locals.user);
 		const values = {
 			chamberId: String(f.get('chamberId') ?? ''),
 			kind: String(f.get('kind') ?? ''),

@@ -137,6 +137,6 @@ describe('alarm mails', () => {
 		expect(last.text_body).toContain('Leak-like signature — Lockstep is not a safety system');
 		expect(last.text_body).toContain('Lines of helium lead');
 		expect(last.text_body).toContain('gas detection, interlocks and safety procedures are authoritative');
-		expect(last.text_body).toContain('leading features: oes_587.6, f1 — apart from the fleet');
+		expect(last.text_body).toContain('leading features: He I 587.6 nm, f1 — apart from the fleet');
 	});
 });

@@ -72,7 +72,7 @@ describe('morning digest over SMTP', () => {
 		expect(lines[0]).toMatch(/^\* 4\.0 days {2}CH2 {2}RCP \/ main {2}Smoothed drift \(warning\) {2}worst 1\.30 {2}1 wafer$/);
 		const leakLine = lines.find((l) => l.includes('Wafer beyond limit'))!;
 		expect(leakLine).toMatch(/^\* 13 h {2}CH1 {2}RCP \/ main {2}Wafer beyond limit \(alarm\)/);
-		expect(leakLine).toMatch(/leading: oes_337\.1 \d+ %/);
+		expect(leakLine).toMatch(/leading: N₂ 337\.1 nm \d+ %/);
 		expect(leakLine).toContain('[leak-like]');
 		for (const a of open) expect(section).toContain(`${origin}/alarms/${a.id}\n`);
 		expect(msg.html_body).toContain(`href="${origin}/alarms/${fab.oldAlarmId}"`);

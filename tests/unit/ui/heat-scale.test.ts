@@ -93,21 +93,50 @@ describe('the L* and simulation helpers of this test', () => {
 	});
 });
 
+/** The panel colour a heat cell sits on (--ls-surface-1 of the theme in app.css). */
+function panelOf(theme: HeatTheme): string {
+	const css = readFileSync(new URL('../../../src/app.css', import.meta.url), 'utf8');
+	const block = css.split(`:root[data-theme='${theme}']`)[1];
+	const panel = /--ls-surface-1:\s*(#[0-9a-f]{6})/i.exec(block)?.[1];
+	if (!panel) throw new Error(`no --ls-surface-1 for ${theme} in app.css`);
+	return panel;
+}
+const chroma = (hex: string) => Math.hypot(...lab(linear(hex)).slice(1));
+const hue = (hex: string) => {
+	const [, a, b] = lab(linear(hex));
+	return ((Math.atan2(b, a) * 180) / Math.PI + 360) % 360;
+};
+
 describe.each(THEMES)('heat scale, %s theme', (theme) => {
-	it('has strictly monotonic L* over r = 0 … 3 at every 0.05', () => {
-		const L = samples(0.05).map((r) => lightness(heatColor(r, theme)));
-		for (let i = 1; i < L.length; i++) expect(DIRECTION[theme] * (L[i] - L[i - 1])).toBeGreaterThan(0);
+	const panel = panelOf(theme);
+	// "Strength" of a cell: how far its colour stands from the panel it sits on (CIE76 ΔE*ab).
+	const strength = (r: number) => deltaE(linear(heatColor(r, theme)), linear(panel));
+
+	it('only gets stronger with severity: ΔE*ab from the panel rises at every 0.05 of r over 0 … 3', () => {
+		const s = samples(0.05).map(strength);
+		for (let i = 1; i < s.length; i++) expect(s[i] - s[i - 1], `r = ${samples(0.05)[i]}`).toBeGreaterThan(0);
 	});
 
-	it('never runs backwards in L* at every 0.01 beyond 8-bit rounding (0.25 L*)', () => {
-		const L = samples(0.01).map((r) => lightness(heatColor(r, theme)));
-		for (let i = 1; i < L.length; i++) expect(DIRECTION[theme] * (L[i] - L[i - 1])).toBeGreaterThan(-0.25);
+	it('never gets weaker at every 0.01 beyond 8-bit rounding (0.6 ΔE*ab, about one code step)', () => {
+		const s = samples(0.01).map(strength);
+		for (let i = 1; i < s.length; i++) expect(s[i] - s[i - 1], `r = ${samples(0.01)[i]}`).toBeGreaterThan(-0.6);
 	});
 
-	it('spans a wide range of lightness (≥ 60 L* units end to end)', () => {
-		expect(Math.abs(lightness(heatColor(HEAT_MAX, theme)) - lightness(heatColor(0, theme)))).toBeGreaterThan(
-			60
-		);
+	it('does not wash out beyond the limit: chroma never falls as r grows from 1 to 3', () => {
+		const rs = samples(0.01).filter((r) => r >= HEAT_LIMIT);
+		for (let i = 1; i < rs.length; i++) expect(chroma(heatColor(rs[i], theme)) - chroma(heatColor(rs[i - 1], theme)), `r = ${rs[i]}`).toBeGreaterThan(-0.5);
+		expect(chroma(heatColor(HEAT_MAX, theme))).toBeGreaterThan(chroma(heatColor(HEAT_LIMIT, theme)));
+	});
+
+	it.each(VISIONS)('keeps the order in lightness alone for %s vision (L* moves away from the panel)', (_, m) => {
+		// Where hue is lost, lightness must still say "worse": L* distance from the panel never shrinks.
+		const P = lab(simulate(m, linear(panel)))[0];
+		const d = samples(0.01).map((r) => Math.abs(lab(simulate(m, linear(heatColor(r, theme))))[0] - P));
+		for (let i = 1; i < d.length; i++) expect(d[i] - d[i - 1], `r = ${samples(0.01)[i]}`).toBeGreaterThan(-0.3);
+	});
+
+	it('spans a wide range of strength (≥ 60 ΔE*ab between r = 0 and r = 3)', () => {
+		expect(strength(HEAT_MAX) - strength(0)).toBeGreaterThan(60);
 	});
 
 	it.each(VISIONS)('steps clearly at the limit for %s vision', (_, m) => {
@@ -130,11 +159,7 @@ describe.each(THEMES)('heat scale, %s theme', (theme) => {
 	});
 
 	it('draws a quiet bucket visibly apart from the bare panel (ΔE*ab > 5)', () => {
-		const css = readFileSync(new URL('../../../src/app.css', import.meta.url), 'utf8');
-		const block = css.split(`:root[data-theme='${theme}']`)[1];
-		const panel = /--ls-surface-1:\s*(#[0-9a-f]{6})/i.exec(block)?.[1];
-		expect(panel).toBeDefined();
-		expect(deltaE(linear(heatColor(0, theme)), linear(panel!))).toBeGreaterThan(5);
+		expect(strength(0)).toBeGreaterThan(5);
 	});
 
 	it('returns each stop colour at its ratio', () => {
@@ -158,6 +183,18 @@ describe.each(THEMES)('heat scale, %s theme', (theme) => {
 		const edge = ((HEAT_LIMIT / HEAT_MAX) * 100).toFixed(2);
 		expect(g).toContain(`${inControl.at(-1)!.color} ${edge}%, ${beyond[0].color} ${edge}%`);
 	});
+});
+
+it('tells the same colour story in both themes: orange at the limit, crimson at three times it (hues within 12°)', () => {
+	const gap = (x: number, y: number) => Math.abs(((x - y + 540) % 360) - 180);
+	for (const r of [HEAT_LIMIT, 2, HEAT_MAX]) expect(gap(hue(heatColor(r, 'dark')), hue(heatColor(r, 'light'))), `r = ${r}`).toBeLessThan(12);
+	for (const theme of THEMES) {
+		// hue angle falls from orange (≈ 60°) towards crimson (≈ 15–25°) as r grows: never back towards yellow
+		const rs = samples(0.05).filter((r) => r >= HEAT_LIMIT);
+		for (let i = 1; i < rs.length; i++) expect(hue(heatColor(rs[i], theme))).toBeLessThan(hue(heatColor(rs[i - 1], theme)) + 0.5);
+		expect(hue(heatColor(HEAT_LIMIT, theme))).toBeGreaterThan(45);
+		expect(hue(heatColor(HEAT_MAX, theme))).toBeLessThan(30);
+	}
 });
 
 it('draws an empty bucket as a pattern, not as any colour of the scale', () => {

@@ -5,7 +5,8 @@
  */
 import type { ChamberSeries } from '$lib/server/views/chamber-view';
 import { baseAxis, baseTooltip, type ChartColors, type EChartsCoreOption } from './echarts';
-import { dateTime, ratio, utcStamp } from './format';
+import { axisTime, dateTime, ratio, utcStamp } from './format';
+import { zoneAbbrev } from '../display/format';
 
 /** Ratios are drawn on a log axis; values below this are drawn at it (the tooltip keeps the value). */
 export const RATIO_FLOOR = 0.01;
@@ -44,7 +45,9 @@ export function chamberChartOption(s: ChamberSeries, c: ChartColors, zone: strin
 		min: s.from,
 		max: s.to,
 		...axis,
-		axisLabel: { ...axis.axisLabel, show, formatter: (v: number) => dateTime(v, zone) },
+		// compact month-day and time; the axis title names the zone once
+		axisLabel: { ...axis.axisLabel, show, formatter: (v: number) => axisTime(v, zone), hideOverlap: true },
+		...(show ? { name: `time (${zoneAbbrev(s.to, zone)})`, nameLocation: 'end' as const, nameGap: 8, nameTextStyle: { color: c.ink3, fontSize: 10, verticalAlign: 'top' as const, padding: [14, 0, 0, 0] } } : {}),
 		splitLine: { show: false }
 	});
 	const yRatio = (gridIndex: number, name: string) => ({
@@ -99,7 +102,7 @@ export function chamberChartOption(s: ChamberSeries, c: ChartColors, zone: strin
 						large: s.at.length > 4000,
 						data: s.at.map((t, i) => clampPt(t, vals[i], i)),
 						itemStyle: { color: (p: { data: number[] }) => pointColor(p.data[2]), opacity: 0.85 },
-						tooltip: { formatter: (p: { data: number[] }) => `${label} ${ratio(p.data[2])} of limit<br/>${dateTime(p.data[0], zone)} <span style="opacity:.7">(${utcStamp(p.data[0])})</span><br/><span style="opacity:.7">click to open the wafer-step</span>` },
+						tooltip: { formatter: (p: { data: number[] }) => `${label} ${ratio(p.data[2])} of limit<br/>${dateTime(p.data[0], zone)}${zone === 'UTC' ? '' : ` <span style="opacity:.7">(${utcStamp(p.data[0])})</span>`}<br/><span style="opacity:.7">click to open the wafer-step</span>` },
 						markLine: g === 0 ? { ...limitLine } : limitLine,
 						markArea: focusArea
 					},

@@ -15,6 +15,7 @@ import {
 	TooltipComponent
 } from 'echarts/components';
 import { CanvasRenderer } from 'echarts/renderers';
+import { LabelLayout } from 'echarts/features';
 
 echarts.use([
 	BarChart,
@@ -27,6 +28,7 @@ echarts.use([
 	MarkLineComponent,
 	MarkPointComponent,
 	TooltipComponent,
+	LabelLayout,
 	CanvasRenderer
 ]);
 

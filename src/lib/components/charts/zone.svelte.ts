@@ -1,30 +1,21 @@
 /**
- * Which clock the screens show: the signed-in user's own time zone (their account setting), or UTC
- * when they switch to it — one choice for every chart, table and tooltip, remembered in the browser.
+ * Which clock the screens show: the signed-in user's own time zone (their account setting), or UTC —
+ * one choice for every page, table, chart, tooltip and typed time. The choice lives in a cookie (see
+ * src/lib/server/clock.ts) so the server renders in the same clock; the root layout hands the zone to
+ * every page as `data.zone`.
  */
-const KEY = 'ls_clock_utc';
+import { invalidateAll } from '$app/navigation';
+import { page } from '$app/state';
 
-export const clock = $state({ utc: false });
+const COOKIE = 'ls_clock';
 
-/** Read the remembered choice (browser only; storage may be refused). */
-export function loadClockChoice(): void {
-	try {
-		clock.utc = localStorage.getItem(KEY) === '1';
-	} catch {
-		clock.utc = false;
-	}
+/** The zone to format times in on this page (from the root layout's data). */
+export function activeZone(): string {
+	return (page.data as { zone?: string }).zone ?? 'UTC';
 }
 
-export function setUtc(utc: boolean): void {
-	clock.utc = utc;
-	try {
-		localStorage.setItem(KEY, utc ? '1' : '0');
-	} catch {
-		// storage refused: the choice holds for this page only
-	}
-}
-
-/** The zone to format times in: UTC when chosen, else the user's zone. */
-export function activeZone(userZone: string | null | undefined): string {
-	return clock.utc ? 'UTC' : userZone || 'UTC';
+/** Switch every page to UTC (true) or the user's zone (false), and reload the data in that clock. */
+export async function setUtc(utc: boolean): Promise<void> {
+	document.cookie = `${COOKIE}=${utc ? 'utc' : 'local'}; path=/; max-age=${400 * 86_400}; samesite=lax`;
+	await invalidateAll();
 }

@@ -1,7 +1,9 @@
 /**
- * Formatting shared by the alarm, baseline, maintenance, fleet and admin screens: times in the user's
- * zone (with UTC one hover away), ages, ratios to a limit and plain numbers with sensible precision.
- * Pure functions on Intl, so the server render and the browser agree.
+ * Lockstep's one formatting module for every page: times, ages, ratios to a limit and numbers.
+ * One date-time format everywhere — "2026-11-23 06:45 CET": ISO order (no month/day ambiguity), 24 h,
+ * and the zone's name after it — in the clock the user chose (their zone or UTC, see
+ * src/lib/server/clock.ts). Pure functions on Intl, so the server render and the browser agree.
+ * (src/lib/components/charts/format.ts re-exports these under the charts' older names.)
  */
 
 const partsCache = new Map<string, Intl.DateTimeFormat>();
@@ -59,16 +61,56 @@ export function formatTime(ms: number | null | undefined, timeZone: string, opts
 	return opts.zone === false ? t : `${t} ${w.zone}`;
 }
 
-/** The same instant in UTC, ISO 8601 ("2026-11-23T06:45:00Z"). */
+/**
+ * A period "2026-11-23 06:00 – 07:00 CET" (the date once when both ends fall on the same day, else
+ * "2026-11-23 06:00 – 2026-11-24 06:00 CET"); the zone's name once, at the end.
+ */
+export function formatRange(from: number | null | undefined, to: number | null | undefined, timeZone: string): string {
+	if (from === null || from === undefined || to === null || to === undefined || !Number.isFinite(from) || !Number.isFinite(to)) return '—';
+	const a = wallClock(from, timeZone);
+	const b = wallClock(to, timeZone);
+	const start = `${a.y}-${a.mo}-${a.d} ${a.h}:${a.mi}`;
+	const sameDay = a.y === b.y && a.mo === b.mo && a.d === b.d;
+	const end = sameDay ? `${b.h}:${b.mi}` : `${b.y}-${b.mo}-${b.d} ${b.h}:${b.mi}`;
+	return `${start} – ${end} ${b.zone}`;
+}
+
+/** The short name of the zone at that instant: "CET", "CEST", "UTC", "GMT+8". */
+export function zoneAbbrev(ms: number, timeZone: string): string {
+	return wallClock(ms, timeZone).zone;
+}
+
+/** "06:45", or "06:45:12" with seconds: a clock time for axes and headers that name the zone elsewhere. */
+export function formatClock(ms: number, timeZone: string, seconds = false): string {
+	const w = wallClock(ms, timeZone);
+	return seconds ? `${w.h}:${w.mi}:${w.s}` : `${w.h}:${w.mi}`;
+}
+
+const dayCache = new Map<string, Intl.DateTimeFormat>();
+/** "Mon 23": a day for column headers over a calendar. */
+export function formatDay(ms: number, timeZone: string): string {
+	const z = safeZone(timeZone);
+	let f = dayCache.get(z);
+	if (!f) dayCache.set(z, (f = new Intl.DateTimeFormat('en-GB', { timeZone: z, weekday: 'short', day: 'numeric' })));
+	return f.format(ms);
+}
+
+/** "11-23 06:45": the compact form for chart axes (the axis title names the zone). */
+export function formatAxisTime(ms: number, timeZone: string): string {
+	const w = wallClock(ms, timeZone);
+	return `${w.mo}-${w.d} ${w.h}:${w.mi}`;
+}
+
+/** The same instant in UTC, ISO 8601 ("2026-11-23T06:45:00Z"), for machine-readable attributes. */
 export function formatUtc(ms: number | null | undefined): string {
 	if (ms === null || ms === undefined || !Number.isFinite(ms)) return '—';
 	return new Date(ms).toISOString().replace(/\.\d{3}Z$/, 'Z');
 }
 
-/** A value for <input type="datetime-local"> showing the instant in the zone. */
+/** The text of a typed date-time field ("2026-11-23 06:45", read in the zone the field names). */
 export function toLocalInput(ms: number, timeZone: string): string {
 	const w = wallClock(ms, timeZone);
-	return `${w.y}-${w.mo}-${w.d}T${w.h}:${w.mi}`;
+	return `${w.y}-${w.mo}-${w.d} ${w.h}:${w.mi}`;
 }
 
 /**
@@ -102,10 +144,20 @@ export function formatAge(ms: number | null | undefined): string {
 	return `${Math.floor(h / 24)} d ${h % 24} h`;
 }
 
-/** A statistic as a multiple of its limit: "0.84×", "12.3×". */
+/** A statistic as a multiple of its limit: "0.84×", "12.3×", "11,090×"; "> 1000×" for an infinite ratio. */
 export function formatRatio(x: number | null | undefined): string {
+	if (x === Infinity) return '> 1000×';
 	if (x === null || x === undefined || !Number.isFinite(x)) return '—';
-	return `${Math.abs(x) >= 10 ? x.toFixed(1) : x.toFixed(2)}×`;
+	const a = Math.abs(x);
+	return `${a < 10 ? x.toFixed(2) : a < 100 ? x.toFixed(1) : Math.round(x).toLocaleString('en')}×`;
+}
+
+/** A physical value with about four significant figures ("1,234", "0.0123", "2.50e+6"). */
+export function formatValue(v: number | null | undefined): string {
+	if (v === null || v === undefined || !Number.isFinite(v)) return '—';
+	const a = Math.abs(v);
+	if (a !== 0 && (a >= 1e6 || a < 1e-3)) return v.toExponential(2);
+	return v.toLocaleString('en-US', { maximumSignificantDigits: 4 });
 }
 
 /** A number with `digits` significant figures, grouped thousands for large values. */

@@ -22,6 +22,7 @@ import { chambersInScope, getSubscription, scopeLabel, type Subscription } from 
 import { unsubscribeUrl } from './unsubscribe.ts';
 import { leakReminder, plural, ratio, RECOMMENDATION_NOTE } from './wording.ts';
 import { formatInZone } from './zones.ts';
+import { featureLabel } from '../../components/display/feature-name.ts';
 
 export interface OpenedAlarm {
 	id: number;
@@ -88,7 +89,7 @@ export function renderAlarmMail(alarms: OpenedAlarm[], o: { displayName: string;
 	const gases = [...new Set(alarms.flatMap((a) => a.facts.leakGases))].sort();
 	const leak = gases.length ? leakReminder(gases) : null;
 	const feats = (f: AlarmFacts) =>
-		f.top.length ? `${f.top.map((t) => (t.share === null ? t.feature : `${t.feature} (${Math.round(t.share * 100)} %)`)).join(', ')}${f.basis && f.basis !== 'fleet' ? ` — contributions to ${f.basis}` : f.basis === 'fleet' ? ' — apart from the fleet' : ''}` : '—';
+		f.top.length ? `${f.top.map((t) => (t.share === null ? featureLabel(t.feature) : `${featureLabel(t.feature)} (${Math.round(t.share * 100)} %)`)).join(', ')}${f.basis && f.basis !== 'fleet' ? ` — contributions to ${f.basis}` : f.basis === 'fleet' ? ' — apart from the fleet' : ''}` : '—';
 	const listed = alarms.slice(0, MAX_LISTED);
 	const title = one ? 'An alarm opened' : `${alarms.length} alarms opened`;
 	const subtitle = one ? `${esc(one.chamberCode)} · ${esc(one.recipeStep)} · ${esc(when(one.openedAt))} (${esc(o.timeZone)})` : `${esc(plural(chambers.length, 'chamber'))} · ${esc(when(alarms[0].openedAt))} – ${esc(when(alarms[alarms.length - 1].openedAt))} (${esc(o.timeZone)})`;

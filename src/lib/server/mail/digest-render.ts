@@ -16,6 +16,7 @@ import { mailLinks } from './links.ts';
 import type { InlineAttachment } from './outbox.ts';
 import { age, leakReminder, plural, ratio, RECOMMENDATION_NOTE } from './wording.ts';
 import { formatInZone } from './zones.ts';
+import { featureLabel } from '../../components/display/feature-name.ts';
 
 export interface RenderedMail {
 	subject: string;
@@ -51,7 +52,7 @@ export function renderDigest(
 	const peak = d.hourly.reduce<{ hourAt: number; worst: number } | null>((m, p) => (p.worst !== null && (!m || p.worst > m.worst) ? { hourAt: p.hourAt, worst: p.worst } : m), null);
 	const peakText = peak ? `Highest: ${ratio(peak.worst)} at ${when(peak.hourAt)}.` : 'No wafer-steps were scored in this period.';
 	const leak = d.leakGases.length ? leakReminder(d.leakGases) : null;
-	const topText = (t: { feature: string; share: number | null }[]) => t.map((f) => (f.share === null ? f.feature : `${f.feature} ${Math.round(f.share * 100)} %`)).join(', ');
+	const topText = (t: { feature: string; share: number | null }[]) => t.map((f) => (f.share === null ? featureLabel(f.feature) : `${featureLabel(f.feature)} ${Math.round(f.share * 100)} %`)).join(', ');
 
 	// ── HTML ──
 	const H: string[] = [];
@@ -77,7 +78,7 @@ export function renderDigest(
 					link(mailLinks.chamber(f.chamberCode), f.chamberCode),
 					link(mailLinks.fleetStep(f.recipeStepId), f.recipeStep),
 					esc(f.modifiedZ.toFixed(1)),
-					esc(f.separating.join(', ') || '—') + (f.leakGases.length ? ` <strong style="color:${C.warn}">leak-like</strong>` : '')
+					esc(f.separating.map(featureLabel).join(', ') || '—') + (f.leakGases.length ? ` <strong style="color:${C.warn}">leak-like</strong>` : '')
 				]),
 				[2]
 			),
@@ -181,7 +182,7 @@ export function renderDigest(
 	head('Apart from the fleet');
 	if (!d.flagged.length) T.push('No chamber was flagged by fleet matching in this period.');
 	for (const f of d.flagged)
-		T.push(`* ${f.chamberCode}  ${f.recipeStep}  modified z ${f.modifiedZ.toFixed(1)}  features: ${f.separating.join(', ') || '—'}${f.leakGases.length ? '  [leak-like]' : ''}`, `  ${mailLinks.chamber(f.chamberCode)}`);
+		T.push(`* ${f.chamberCode}  ${f.recipeStep}  modified z ${f.modifiedZ.toFixed(1)}  features: ${f.separating.map(featureLabel).join(', ') || '—'}${f.leakGases.length ? '  [leak-like]' : ''}`, `  ${mailLinks.chamber(f.chamberCode)}`);
 	head('Open alarms by age');
 	T.push(d.openByAge.map((b) => `${b.label}: ${b.count}`).join(' · ') + (d.acknowledgedLive ? ` · acknowledged, not closed: ${d.acknowledgedLive}` : ''));
 	if (!d.openAlarms.length) T.push('No open alarms.');

@@ -47,9 +47,9 @@ export function timeZoneNames(): string[] {
 	return all.includes('UTC') ? all : ['UTC', ...all];
 }
 
-/** A `datetime-local` value ("2026-12-07T06:30") read in `tz`; null when malformed. */
+/** A typed date-time ("2026-12-07 06:30", or with a T) read in `tz`; null when malformed. */
 export function parseLocalDateTime(s: string, tz: string): number | null {
-	const m = /^(\d{4})-(\d{2})-(\d{2})T(\d{2}):(\d{2})$/.exec(s.trim());
+	const m = /^(\d{4})-(\d{2})-(\d{2})[T ](\d{2}):(\d{2})$/.exec(s.trim());
 	if (!m) return null;
 	const [y, mo, d, h, mi] = m.slice(1).map(Number);
 	if (mo < 1 || mo > 12 || d < 1 || d > 31 || h > 23 || mi > 59) return null;

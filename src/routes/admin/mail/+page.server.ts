@@ -3,6 +3,7 @@ import { config } from '$lib/server/config';
 import { queueDigestNow } from '$lib/server/mail/digest';
 import { mailOrigin, sinkWanted } from '$lib/server/mail/env';
 import { parseLocalDateTime } from '$lib/server/mail/forms';
+import { clockZone } from '$lib/server/clock';
 import { framedHtml, getSinkMessage, listSinkMessages } from '$lib/server/mail/mailbox';
 import { listOutbox, requeueMail, type OutboxState } from '$lib/server/mail/outbox';
 import { getMailPolicy, putMailPolicy } from '$lib/server/mail/policy';
@@ -49,7 +50,7 @@ async function kickSender(): Promise<string> {
 }
 
 export const actions: Actions = {
-	send: async ({ request, locals }) => {
+	send: async ({ request, locals, cookies }) => {
 		const f = await request.formData();
 		const userId = String(f.get('userId') ?? '');
 		const kind = f.get('kind') === 'weekly' ? 'weekly' : 'digest';
@@ -57,7 +58,7 @@ export const actions: Actions = {
 		const values = { userId, kind, period: preset, from: String(f.get('from') ?? ''), to: String(f.get('to') ?? '') };
 		const sub = userId ? await getSubscription(userId) : null;
 		if (!sub) return fail(400, { action: 'send', errors: { userId: 'Choose a person with a mail subscription.' }, values });
-		const zone = locals.user?.timeZone || 'UTC';
+		const zone = clockZone(cookies, locals.user);
 		const t = now();
 		let period: { from: number; to: number };
 		if (preset === '24h') period = { from: t - 24 * HOUR, to: t };

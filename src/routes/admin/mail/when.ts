@@ -1,5 +1,7 @@
+import { formatTime } from '$lib/components/display/format';
+
 /** Times on the mail admin page, in the viewer's zone. */
 export function formatWhen(ms: number | null, timeZone: string): string {
 	if (ms === null) return '—';
-	return new Intl.DateTimeFormat('en-GB', { timeZone, dateStyle: 'medium', timeStyle: 'short' }).format(new Date(ms));
+	return formatTime(ms, timeZone);
 }

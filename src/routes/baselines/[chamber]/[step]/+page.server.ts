@@ -1,7 +1,8 @@
 import { error, fail } from '@sveltejs/kit';
 import { approveBaseline, BaselineError, createDraftBaseline, discardDraft } from '$lib/server/baselines';
 import { db } from '$lib/server/db';
-import { fromLocalInput, safeZone, toLocalInput } from '$lib/components/display/format';
+import { clockZone } from '$lib/server/clock';
+import { fromLocalInput, toLocalInput } from '$lib/components/display/format';
 import { hasRole } from '$lib/server/roles';
 import { rescoreSince } from '$lib/server/scoring';
 import { runningTasks, startTask } from '$lib/server/tasks';
@@ -18,9 +19,9 @@ async function workspaceOf(params: { chamber: string; step: string }) {
 	return ws;
 }
 
-export const load: PageServerLoad = async ({ params, url, locals }) => {
+export const load: PageServerLoad = async ({ params, url, locals, cookies }) => {
 	const ws = await workspaceOf(params);
-	const zone = safeZone(locals.user?.timeZone);
+	const zone = clockZone(cookies, locals.user);
 	const last = ws.range.last ?? Date.now();
 	// Default range: since the requalify began (after maintenance), else the last week of wafers. When
 	// the maintenance came after the latest wafer, the range runs from it to now (and is empty for now).
@@ -116,7 +117,7 @@ export const actions: Actions = {
 			throw e;
 		}
 	},
-	approve: async ({ request, params, locals }: RequestEvent) => {
+	approve: async ({ request, params, locals, cookies }: RequestEvent) => {
 		const ws = await workspaceOf(params);
 		const f = await request.formData();
 		const id = Number(text(f, 'baselineId'));
@@ -124,7 +125,7 @@ export const actions: Actions = {
 		const rescore = f.get('rescore') === 'on';
 		let since: number | null = null;
 		if (rescore) {
-			const r = rescoreFrom(f, safeZone(locals.user!.timeZone));
+			const r = rescoreFrom(f, clockZone(cookies, locals.user));
 			if (r.error) return fail(400, { action: 'approve', id, errors: { rescoreFrom: r.error } });
 			since = r.since;
 		}
@@ -149,10 +150,10 @@ export const actions: Actions = {
 		}
 		return { action: 'discard', id, message: 'Draft discarded.' };
 	},
-	rescore: async ({ request, params, locals }: RequestEvent) => {
+	rescore: async ({ request, params, locals, cookies }: RequestEvent) => {
 		const ws = await workspaceOf(params);
 		if (!ws.active) return fail(400, { action: 'rescore', errors: { form: 'There is no active baseline to rescore against.' } });
-		const r = rescoreFrom(await request.formData(), safeZone(locals.user!.timeZone));
+		const r = rescoreFrom(await request.formData(), clockZone(cookies, locals.user));
 		if (r.error) return fail(400, { action: 'rescore', errors: { rescoreFrom: r.error } });
 		const task = startRescore(ws, r.since!, locals.user!.id);
 		return { action: 'rescore', taskId: task.id, message: 'Rescoring started.' };
