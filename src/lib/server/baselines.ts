@@ -48,7 +48,7 @@ export async function goldenCandidates(
 	k: Knex = db()
 ): Promise<GoldenCandidate[]> {
 	const policy = await getSetting('baseline_policy', k);
-	const rows = await k('wafer_steps')
+	const rows: { id: number; wafer_id: string; lot_id: string; processed_at: number | string; golden: boolean | number }[] = await k('wafer_steps')
 		.where({ chamber_id: q.chamberId, recipe_step_id: q.recipeStepId })
 		.andWhere('processed_at', '>=', q.from)
 		.andWhere('processed_at', '<=', q.to)

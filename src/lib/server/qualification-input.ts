@@ -102,3 +102,30 @@ export async function parseCampaignRequest(body: unknown, k: Knex = db()): Promi
 	}
 	return { recipeStepIds, chamberIds, rule: parseGoldenRule(body.golden), components: parseComponents(body.components) };
 }
+
+export interface CampaignFormOptions {
+	recipes: { code: string; steps: string[] }[];
+	areas: { code: string; name: string }[];
+	tools: { code: string; name: string; area: string }[];
+}
+
+/** What the new-campaign form offers: recipes with their steps, areas and tools. */
+export async function campaignFormOptions(k: Knex = db()): Promise<CampaignFormOptions> {
+	const steps = await k('recipe_steps as rs').join('recipes as r', 'r.id', 'rs.recipe_id').orderBy([{ column: 'r.code' }, { column: 'rs.position' }]).select('r.code', 'rs.name');
+	const recipes: CampaignFormOptions['recipes'] = [];
+	for (const s of steps) {
+		const r = recipes.find((x) => x.code === s.code) ?? recipes[recipes.push({ code: s.code, steps: [] }) - 1];
+		r.steps.push(s.name);
+	}
+	const areas = await k('areas').orderBy('code').select('code', 'name');
+	const tools = await k('tools as t').join('areas as a', 'a.id', 't.area_id').orderBy('t.code').select('t.code', 't.name', 'a.code as area');
+	return { recipes, areas, tools };
+}
+
+/** Split a pasted or uploaded list (lines, commas, semicolons, tabs or spaces) into entries. */
+export function splitList(text: string): string[] {
+	return text
+		.split(/[\s,;]+/)
+		.map((s) => s.trim())
+		.filter(Boolean);
+}

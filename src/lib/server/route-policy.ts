@@ -59,7 +59,13 @@ export const ROUTE_POLICY: Record<string, RoutePolicy> = {
 	// mailbox, and the public unsubscribe page, where the signed token is the credential.
 	'/account/mail': { GET: 'viewer', actions: { save: 'viewer' } },
 	'/admin/mail': { GET: 'admin', actions: { send: 'admin', requeue: 'admin', policy: 'admin' } },
-	'/unsubscribe': { GET: 'public', actions: { default: 'public' } }
+	'/unsubscribe': { GET: 'public', actions: { default: 'public' } },
+	// Qualification campaigns: everyone reads them; engineers start and approve (four-eyes in the code).
+	'/qualifications': { GET: 'viewer', actions: { create: 'engineer' } },
+	'/qualifications/[id]': { GET: 'viewer', actions: { approve: 'engineer' } },
+	'/api/qualifications': { GET: 'viewer', POST: 'engineer', token: 'read' },
+	'/api/qualifications/[id]': { GET: 'viewer', token: 'read' },
+	'/api/qualifications/[id]/approve': { POST: 'engineer' }
 };
 
 /** The form action named by a POST to a page: `?/name`, or `default`. */
