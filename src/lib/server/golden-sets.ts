@@ -20,6 +20,11 @@ export type GoldenRule =
 
 /** Most entries of a lot or wafer-id list (a golden set, not a history). */
 export const MAX_LIST = 5000;
+/**
+ * Most golden wafers a set keeps (the newest fair candidates): golden sets in fabs are 20–300 wafers,
+ * and the screening's n × n decomposition stays under a second at this size.
+ */
+export const MAX_GOLDEN = 400;
 /** Fewest golden wafers a draft needs (createDraftBaseline's own floor). */
 export const MIN_GOLDEN = 10;
 /** Below this many golden wafers the review warns that the limits rest on little data (common practice). */
@@ -59,7 +64,7 @@ export function describeRule(rule: GoldenRule): string {
 	}
 }
 
-async function latestWetClean(chamberId: number, k: Knex): Promise<number | null> {
+export async function latestWetClean(chamberId: number, k: Knex = db()): Promise<number | null> {
 	const r = await k('maintenance_events').where({ chamber_id: chamberId, kind: 'wet_clean' }).andWhere('at', '<=', now()).max({ at: 'at' }).first();
 	return r?.at == null ? null : Number(r.at);
 }
@@ -96,11 +101,18 @@ export async function selectGolden(chamberId: number, recipeStepId: number, rule
 		const missing = rule.waferIds.filter((w) => !seen.has(w));
 		if (missing.length) warnings.push(`${missing.length} listed wafer${missing.length === 1 ? ' was' : 's were'} not run on this chamber × step: ${missing.slice(0, 5).join(', ')}${missing.length > 5 ? ', …' : ''}.`);
 	}
-	const fair = found.filter((c) => c.excluded === null);
+	let fair = found.filter((c) => c.excluded === null);
+	const reasons = new Map<number, string>();
+	if (fair.length > MAX_GOLDEN && rule.kind === 'afterWetClean') {
+		for (const c of fair.slice(MAX_GOLDEN)) reasons.set(c.id, `beyond the first ${MAX_GOLDEN} fair candidates after the wet clean`);
+		fair = fair.slice(0, MAX_GOLDEN);
+	} else if (fair.length > MAX_GOLDEN) {
+		for (const c of fair.slice(0, fair.length - MAX_GOLDEN)) reasons.set(c.id, `older than the newest ${MAX_GOLDEN} fair candidates (a golden set keeps at most ${MAX_GOLDEN}; narrow the choice to use these)`);
+		fair = fair.slice(-MAX_GOLDEN);
+	}
 	const rows = await getWaferStepsByIds(fair.map((c) => c.id), k);
 	// One feature set per baseline: keep the newest, say how many of an older set were left out.
 	const newest = rows.reduce((m, r) => Math.max(m, r.featureSetVersion), 0);
-	const reasons = new Map<number, string>();
 	for (const r of rows) if (r.featureSetVersion !== newest) reasons.set(r.id, `older feature set (v${r.featureSetVersion}; the newest here is v${newest})`);
 	const usable = rows.filter((r) => r.featureSetVersion === newest);
 	let method: string | null = null;

@@ -4,7 +4,7 @@
  */
 import type { Knex } from 'knex';
 import { db } from './db.ts';
-import { MAX_LIST, type GoldenRule } from './golden-sets.ts';
+import { MAX_GOLDEN, MAX_LIST, type GoldenRule } from './golden-sets.ts';
 import { QualificationError } from './qualifications.ts';
 
 export interface CampaignRequest {
@@ -50,8 +50,8 @@ export function parseGoldenRule(g: unknown): GoldenRule {
 	if (kinds[0] === 'waferIds') return { kind: 'waferIds', waferIds: stringList(g.waferIds, 'golden.waferIds') };
 	const a = g.afterWetClean;
 	const count = isObj(a) ? a.count : undefined;
-	if (typeof count !== 'number' || !Number.isInteger(count) || count < 10 || count > 1000)
-		throw new QualificationError('golden.afterWetClean.count must be a whole number from 10 to 1,000.', 'golden.afterWetClean.count');
+	if (typeof count !== 'number' || !Number.isInteger(count) || count < 10 || count > MAX_GOLDEN)
+		throw new QualificationError(`golden.afterWetClean.count must be a whole number from 10 to ${MAX_GOLDEN}.`, 'golden.afterWetClean.count');
 	return { kind: 'afterWetClean', count };
 }
 

@@ -25,7 +25,7 @@ export const ROUTE_POLICY: Record<string, RoutePolicy> = {
 	'/alarms': { GET: 'viewer', actions: { acknowledge: 'engineer', close: 'engineer' } },
 	'/alarms/[id]': { GET: 'viewer', actions: { acknowledge: 'engineer', close: 'engineer' } },
 	'/baselines': { GET: 'viewer' },
-	'/baselines/[chamber]/[step]': { GET: 'viewer', actions: { draft: 'engineer', approve: 'engineer', discard: 'engineer', rescore: 'engineer' } },
+	'/baselines/[chamber]/[step]': { GET: 'viewer', actions: { choose: 'viewer', draft: 'engineer', approve: 'engineer', discard: 'engineer', rescore: 'engineer' } },
 	'/maintenance': { GET: 'viewer', actions: { log: 'engineer' } },
 	'/admin/policy': { GET: 'admin', actions: { alarm: 'admin', baseline: 'admin', ingest: 'admin' } },
 	'/admin/cause-codes': { GET: 'admin', actions: { add: 'admin', rename: 'admin', retire: 'admin', restore: 'admin' } },
