@@ -40,7 +40,8 @@ export const load: PageServerLoad = async ({ params, url, locals }) => {
 	// no wet clean logged, the last week of wafers. Either way the candidates are screened robustly, so
 	// a history loaded with its excursions does not get them ticked.
 	const asked = url.searchParams.get('rule');
-	const ruleKind = asked === 'range' || asked === 'afterWetClean' ? asked : wetCleanAt !== null ? 'afterWetClean' : 'range';
+	const rangeAsked = url.searchParams.has('from') || url.searchParams.has('to');
+	const ruleKind = asked === 'range' || asked === 'afterWetClean' ? asked : rangeAsked || wetCleanAt === null ? 'range' : 'afterWetClean';
 	const from0 = ws.chamber.requalifySince ?? last - 7 * 24 * HOUR;
 	const dflt = { from: from0, to: Math.max(last, from0 > last ? Date.now() : last) };
 	const fromText = url.searchParams.get('from');
@@ -75,7 +76,7 @@ export const load: PageServerLoad = async ({ params, url, locals }) => {
 	const tasks = runningTasks('rescore').filter((t) => t.label.startsWith(`${ws.chamber.code} · ${ws.step.recipeCode} ${ws.step.stepName}`));
 	return {
 		ws,
-		rule: { kind: ruleKind, count, wetCleanAt, defaulted: asked === null },
+		rule: { kind: ruleKind, count, wetCleanAt, defaulted: asked === null && !rangeAsked },
 		range: { from, to, fromInput: toLocalInput(from, zone), toInput: toLocalInput(to, zone), errors: rangeErrors },
 		selection,
 		selectedDraft: Number(url.searchParams.get('draft')) || ws.drafts[0]?.id || null,
