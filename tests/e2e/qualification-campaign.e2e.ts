@@ -147,6 +147,32 @@ describe('a qualification campaign in the browser', () => {
 		await ctx.close();
 	});
 
+	it('the baselines page picks the same way: ticked wafers first, the outlier after them with its reason', async () => {
+		const ctx = await browser.newContext({ viewport: { width: 1280, height: 800 } });
+		const page = await ctx.newPage();
+		await signInTo(page, 'engineer', `/baselines/QE2-A/${ids.step}`);
+		const rows = page.getByTestId('candidate-table').locator('tbody tr');
+		await rows.first().waitFor();
+		const texts = await rows.allTextContents();
+		const at = texts.findIndex((t) => t.includes(OUTLIER));
+		expect(at).toBeGreaterThan(0);
+		expect(texts[at]).toMatch(/screened out: .*qe2_f7/);
+		expect(await rows.nth(at).locator('input[type="checkbox"]').isChecked()).toBe(false);
+		const checked = await rows.locator('input[type="checkbox"]').evaluateAll((els) => els.map((e) => (e as HTMLInputElement).checked));
+		// every ticked row comes before every unticked one
+		expect(checked.indexOf(false)).toBeGreaterThan(0);
+		expect(checked.slice(checked.indexOf(false)).includes(true)).toBe(false);
+		expect(texts[0]).toContain('golden before');
+		await screenshot(page, 'baseline-candidates-1280');
+		// the list rule: paste wafer ids
+		await page.getByLabel('wafer ids').check();
+		await page.getByLabel('Wafer ids').fill(['QE2-A-L2-0', 'QE2-A-L2-1', 'nope-9'].join('\n'));
+		await page.getByRole('button', { name: 'Show wafers' }).click();
+		await expect.poll(() => page.getByTestId('golden-warnings').textContent()).toContain('nope-9');
+		expect(await rows.count()).toBe(2);
+		await ctx.close();
+	});
+
 	it('looks right at 2560 × 1440 in both themes', async () => {
 		for (const scheme of ['light', 'dark'] as const) {
 			const ctx = await browser.newContext({ viewport: { width: 2560, height: 1440 } });
