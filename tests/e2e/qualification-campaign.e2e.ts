@@ -144,6 +144,13 @@ describe('a qualification campaign in the browser', () => {
 		const unscored = await k('wafer_steps').whereIn('chamber_id', ids.chambers).whereNot({ scoring_state: 'scored' }).count({ n: '*' }).first();
 		expect(Number(unscored!.n)).toBe(0);
 		await screenshot(page, 'qualification-approved-1280-light');
+		// by role: a viewer reads the campaign but cannot approve; no one anonymous reads the API
+		const id = campaignPath.split('/').pop();
+		const viewer = await signIn('viewer');
+		expect((await request(campaignPath, { cookie: viewer })).status).toBe(200);
+		expect((await request(`/api/qualifications/${id}`)).status).toBe(401);
+		expect((await request(`/api/qualifications/${id}/approve`, { method: 'POST', cookie: viewer, headers: { origin: base() } })).status).toBe(403);
+		expect((await request(`${campaignPath}?/approve`, { cookie: viewer, form: { mode: 'all' } })).status).toBe(403);
 		await ctx.close();
 	});
 

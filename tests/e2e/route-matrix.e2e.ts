@@ -24,7 +24,7 @@ export const EXPECTED: Record<string, Entry> = {
 	'/alarms': { GET: 'viewer', actions: { acknowledge: 'engineer', close: 'engineer' } },
 	'/alarms/[id]': { path: '/alarms/1', GET: 'viewer', actions: { acknowledge: 'engineer', close: 'engineer' } },
 	'/baselines': { GET: 'viewer' },
-	'/baselines/[chamber]/[step]': { path: '/baselines/DE01-A/1', GET: 'viewer', actions: { draft: 'engineer', approve: 'engineer', discard: 'engineer', rescore: 'engineer' } },
+	'/baselines/[chamber]/[step]': { path: '/baselines/DE01-A/1', GET: 'viewer', actions: { choose: 'viewer', draft: 'engineer', approve: 'engineer', discard: 'engineer', rescore: 'engineer' } },
 	'/maintenance': { GET: 'viewer', actions: { log: 'engineer' } },
 	'/admin/policy': { GET: 'admin', actions: { alarm: 'admin', baseline: 'admin', ingest: 'admin' } },
 	'/admin/cause-codes': { GET: 'admin', actions: { add: 'admin', rename: 'admin', retire: 'admin', restore: 'admin' } },
@@ -54,7 +54,14 @@ export const EXPECTED: Record<string, Entry> = {
 	// Mail. /unsubscribe's GET needs a signed token (a bad one answers 400): mail-unsubscribe.e2e.ts tests it.
 	'/account/mail': { GET: 'viewer', actions: { save: 'viewer' } },
 	'/admin/mail': { GET: 'admin', actions: { send: 'admin', requeue: 'admin', policy: 'admin' } },
-	'/unsubscribe': { actions: { default: 'public' } }
+	'/unsubscribe': { actions: { default: 'public' } },
+	// Qualification campaigns. The demo seeds none: a campaign's page and API are probed by role in
+	// qualification-campaign.e2e.ts; an unknown id answers 404 to those allowed.
+	'/qualifications': { GET: 'viewer', actions: { create: 'engineer' } },
+	'/qualifications/[id]': { path: '/qualifications/999999', actions: { approve: 'engineer' } },
+	'/api/qualifications': { GET: 'viewer', POST: 'engineer' },
+	'/api/qualifications/[id]': { path: '/api/qualifications/999999' },
+	'/api/qualifications/[id]/approve': { path: '/api/qualifications/999999/approve', POST: 'engineer' }
 };
 
 const WHO: Who[] = ['anonymous', 'viewer', 'engineer', 'admin'];
