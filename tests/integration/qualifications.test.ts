@@ -8,10 +8,10 @@ import { useTempDb } from '../helpers/temp-db.ts';
 import { createFab, insertWaferSteps, latentRows } from '../helpers/fab.ts';
 import { createUser } from '../../src/lib/server/users.ts';
 import { putSetting } from '../../src/lib/server/settings.ts';
-import { setClock } from '../../src/lib/server/time.ts';
+import { now, setClock } from '../../src/lib/server/time.ts';
 import { logMaintenance } from '../../src/lib/server/maintenance.ts';
 import { selectGolden } from '../../src/lib/server/golden-sets.ts';
-import { approveCampaign, createCampaign, getCampaign, runDrafts, runRescores, QualificationError } from '../../src/lib/server/qualifications.ts';
+import { approveCampaign, createCampaign, getCampaign, runDrafts, runRescores, QualificationError, LEASE_MS } from '../../src/lib/server/qualifications.ts';
 import { parseCampaignRequest } from '../../src/lib/server/qualification-input.ts';
 import { proposeRequalifications, requalifyStatus, REQUALIFY_WAFERS } from '../../src/lib/server/requalification.ts';
 
@@ -175,6 +175,20 @@ describe('a campaign over 3 chambers × 2 steps', () => {
 		const { campaign, drafts } = (await getCampaign(id))!;
 		expect(campaign.progress.rescored).toBe(6);
 		expect(drafts.every((d) => d.rescore.state === 'done' && d.rescore.rescored! >= d.n!)).toBe(true);
+	});
+});
+
+describe('a stopped process', () => {
+	it('leaves claims that the next runner takes over once their lease expired, and only those', async () => {
+		const lots = ['c0s1L0-lot', 'c0s1L1-lot', 'c0s1L3-lot', 'c1s1L0-lot', 'c1s1L2-lot', 'c1s1L3-lot'];
+		const id = await createCampaign({ recipeStepIds: [fab.recipeStepId], chamberIds: [fab.chamberIds[0], fab.chamberIds[1]], rule: { kind: 'lots', lots }, components: 'auto', createdBy: engineer });
+		const [stale, fresh] = await env.k('qualification_drafts').where({ campaign_id: id }).orderBy('id');
+		await env.k('qualification_drafts').where({ id: stale.id }).update({ state: 'working', claimed_at: now() - LEASE_MS - 1 });
+		await env.k('qualification_drafts').where({ id: fresh.id }).update({ state: 'working', claimed_at: now() });
+		expect(await runDrafts(id)).toBe(1);
+		const after = (await getCampaign(id))!;
+		expect(after.drafts.map((d) => d.state).sort()).toEqual(['drafted', 'working']);
+		expect(after.campaign.state).toBe('drafting'); // one draft is still someone's
 	});
 });
 
