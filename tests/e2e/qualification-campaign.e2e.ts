@@ -174,8 +174,8 @@ describe('a qualification campaign in the browser', () => {
 		expect(texts[0]).toContain('golden before');
 		await screenshot(page, 'baseline-candidates-1280');
 		// the list rule: paste wafer ids
-		await page.getByLabel('wafer ids').check();
-		await page.getByLabel('Wafer ids').fill(['QE2-A-L2-0', 'QE2-A-L2-1', 'nope-9'].join('\n'));
+		await page.getByRole('radio', { name: 'wafer ids' }).check();
+		await page.getByRole('textbox', { name: 'Wafer ids' }).fill(['QE2-A-L2-0', 'QE2-A-L2-1', 'nope-9'].join('\n'));
 		await page.getByRole('button', { name: 'Show wafers' }).click();
 		await expect.poll(() => page.getByTestId('golden-warnings').textContent()).toContain('nope-9');
 		expect(await rows.count()).toBe(2);
