@@ -110,11 +110,14 @@ export async function runOnboardingBench(): Promise<BenchFigure[]> {
 		for (const f of files) {
 			const r = await call(srv, cookie, n, 'data', `/api/ingest?name=${encodeURIComponent(path.basename(f))}`, { body: fs.readFileSync(f) });
 			if (r.status >= 300) throw new Error(`ingest ${f}: ${r.status} ${JSON.stringify(r.body).slice(0, 400)}`);
+			if (process.env.LOCKSTEP_BENCH_VERBOSE) console.log(`onboarding: ${r.status} ${String(r.body.summary)}`);
 		}
 		const tIngest = performance.now();
 		const ids: number[] = [];
 		for (const step of STEPS) {
-			const r = await call(srv, cookie, n, 'requests', '/api/qualifications', { json: { recipe: RECIPE, step, golden: { from: new Date(start - 60_000).toISOString(), to: new Date().toISOString() } } });
+			const r = await call(srv, cookie, n, 'requests', '/api/qualifications', { json: { recipe: RECIPE, step, golden: { from: new Date(start - 60_000).toISOString(), to: new Date().toISOString() } } }).catch((e) => {
+				throw new Error(`campaign ${step} (after ${ids.length}): ${e}`, { cause: e });
+			});
 			if (r.status !== 202) throw new Error(`campaign ${step}: ${r.status} ${JSON.stringify(r.body)}`);
 			ids.push(Number(r.body.id));
 		}
@@ -147,7 +150,7 @@ export async function runOnboardingBench(): Promise<BenchFigure[]> {
 		for (const id of ids) await waitFor(id, (x) => (x.progress as { rescoring: number }).rescoring === 0);
 		const tRescore = performance.now();
 		const m = await call(srv, cookie, n, 'requests', '/api/matching', { json: {} });
-		if (m.status >= 300) notes.push(`fleet matching: POST /api/matching answered ${m.status} (${JSON.stringify(m.body).slice(0, 200)})`);
+		if (m.status >= 300) notes.push(`fleet matching: POST /api/matching answered ${m.status}${m.status === 404 ? " (not built in this tree yet)" : ` (${JSON.stringify(m.body).slice(0, 200)})`}`);
 		const tEnd = performance.now();
 		const peak = peakRssMb(srv.proc.pid);
 		console.log(
@@ -160,6 +163,10 @@ export async function runOnboardingBench(): Promise<BenchFigure[]> {
 			{ name: 'onboarding: baselines approved', value: approved, unit: 'baselines', target: `${CHAMBERS * STEPS.length}` },
 			{ name: 'onboarding: server peak RSS', value: peak, unit: 'MB' }
 		];
+	} catch (e) {
+		const health = await fetch(`${srv.base}/api/health`).then((r) => r.status).catch((x) => String(x));
+		console.error(`onboarding: failed; server exit code ${srv.proc.exitCode}, health ${health}; the server said:\n${srv.log().slice(-3000)}`);
+		throw e;
 	} finally {
 		await srv.stop();
 		fs.rmSync(dir, { recursive: true, force: true });

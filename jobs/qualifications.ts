@@ -3,7 +3,7 @@
  * left (claims past their lease), then propose the requalification baselines that are due after wet
  * cleans. Proposals are drafts for an engineer to review; nothing is approved here.
  */
-import { runDrafts, runRescores } from '../src/lib/server/qualifications.ts';
+import { runDrafts, runRescores } from '../src/lib/server/qualification-runner.ts';
 import { proposeRequalifications } from '../src/lib/server/requalification.ts';
 
 export async function runQualificationJob(): Promise<void> {

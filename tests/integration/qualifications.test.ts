@@ -11,7 +11,8 @@ import { putSetting } from '../../src/lib/server/settings.ts';
 import { now, setClock } from '../../src/lib/server/time.ts';
 import { logMaintenance } from '../../src/lib/server/maintenance.ts';
 import { selectGolden } from '../../src/lib/server/golden-sets.ts';
-import { approveCampaign, createCampaign, getCampaign, runDrafts, runRescores, QualificationError, LEASE_MS } from '../../src/lib/server/qualifications.ts';
+import { approveCampaign, createCampaign, getCampaign, QualificationError, LEASE_MS } from '../../src/lib/server/qualifications.ts';
+import { runDrafts, runRescores } from '../../src/lib/server/qualification-runner.ts';
 import { parseCampaignRequest } from '../../src/lib/server/qualification-input.ts';
 import { proposeRequalifications, requalifyStatus, REQUALIFY_WAFERS } from '../../src/lib/server/requalification.ts';
 

@@ -5,7 +5,8 @@
  */
 import type { Knex } from 'knex';
 import { db } from './db.ts';
-import { createCampaign, runDrafts } from './qualifications.ts';
+import { createCampaign } from './qualifications.ts';
+import { runDrafts } from './qualification-runner.ts';
 import { getSetting } from './settings.ts';
 import { now } from './time.ts';
 

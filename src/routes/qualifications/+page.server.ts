@@ -2,7 +2,8 @@ import { fail, redirect } from '@sveltejs/kit';
 import { fromLocalInput, safeZone } from '$lib/components/display/format';
 import { hasRole } from '$lib/server/roles';
 import { campaignFormOptions, parseCampaignRequest, splitList } from '$lib/server/qualification-input';
-import { createCampaign, launchCampaign, listCampaigns, QualificationError } from '$lib/server/qualifications';
+import { createCampaign, listCampaigns, QualificationError } from '$lib/server/qualifications';
+import { launchCampaign } from '$lib/server/qualification-runner';
 import { requalifyStatus } from '$lib/server/requalification';
 import type { Actions, PageServerLoad } from './$types';
 

@@ -1,7 +1,8 @@
 import { json } from '@sveltejs/kit';
 import { actorOf } from '$lib/server/qualification-api';
 import { parseCampaignRequest } from '$lib/server/qualification-input';
-import { createCampaign, launchCampaign, listCampaigns, QualificationError } from '$lib/server/qualifications';
+import { createCampaign, listCampaigns, QualificationError } from '$lib/server/qualifications';
+import { launchCampaign } from '$lib/server/qualification-runner';
 import type { RequestHandler } from './$types';
 
 /** Start a qualification campaign: drafts are fitted in the background; poll GET /api/qualifications/{id}. */

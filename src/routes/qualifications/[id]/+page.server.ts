@@ -1,7 +1,8 @@
 import { error, fail } from '@sveltejs/kit';
 import { hasRole } from '$lib/server/roles';
 import { getSetting } from '$lib/server/settings';
-import { approveCampaign, getCampaign, launchRescore, QualificationError } from '$lib/server/qualifications';
+import { approveCampaign, getCampaign, QualificationError } from '$lib/server/qualifications';
+import { launchRescore } from '$lib/server/qualification-runner';
 import type { Actions, PageServerLoad } from './$types';
 
 async function campaignOf(raw: string) {

@@ -1,6 +1,7 @@
 import { json } from '@sveltejs/kit';
 import { actorOf } from '$lib/server/qualification-api';
-import { approveCampaign, launchRescore, QualificationError } from '$lib/server/qualifications';
+import { approveCampaign, QualificationError } from '$lib/server/qualifications';
+import { launchRescore } from '$lib/server/qualification-runner';
 import type { RequestHandler } from './$types';
 
 /**
