@@ -129,3 +129,19 @@ export function splitList(text: string): string[] {
 		.map((s) => s.trim())
 		.filter(Boolean);
 }
+
+/** Largest uploaded list file (5,000 ids of 64 characters are ≈ 330 kB). */
+export const MAX_LIST_FILE = 2 * 1024 * 1024;
+
+/** A list from a form: the pasted text plus an uploaded text or CSV file, de-duplicated, checked. */
+export async function listFromForm(f: FormData, textField: string, fileField: string): Promise<{ list: string[]; error: string | null }> {
+	let list = splitList(String(f.get(textField) ?? ''));
+	const file = f.get(fileField);
+	if (file instanceof File && file.size > 0) {
+		if (file.size > MAX_LIST_FILE) return { list, error: `${file.name} is larger than 2 MB; a golden list is at most ${MAX_LIST.toLocaleString('en')} entries.` };
+		list = list.concat(splitList(await file.text()));
+	}
+	list = [...new Set(list)];
+	if (list.length > MAX_LIST) return { list, error: `${list.length.toLocaleString('en')} entries; at most ${MAX_LIST.toLocaleString('en')}.` };
+	return { list, error: null };
+}

@@ -1,7 +1,7 @@
 import { fail, redirect } from '@sveltejs/kit';
 import { fromLocalInput, safeZone } from '$lib/components/display/format';
 import { hasRole } from '$lib/server/roles';
-import { campaignFormOptions, parseCampaignRequest, splitList } from '$lib/server/qualification-input';
+import { campaignFormOptions, listFromForm, parseCampaignRequest, splitList } from '$lib/server/qualification-input';
 import { createCampaign, listCampaigns, QualificationError } from '$lib/server/qualifications';
 import { launchCampaign } from '$lib/server/qualification-runner';
 import { requalifyStatus } from '$lib/server/requalification';
@@ -15,7 +15,6 @@ export const load: PageServerLoad = async ({ locals }) => ({
 });
 
 const text = (f: FormData, n: string) => String(f.get(n) ?? '').trim();
-const MAX_FILE = 2 * 1024 * 1024;
 
 /** The form's fields as a POST /api/qualifications body, so both are checked by the same code. */
 async function bodyFromForm(f: FormData, zone: string): Promise<{ body: Record<string, unknown>; errors: Record<string, string> }> {
@@ -42,13 +41,9 @@ async function bodyFromForm(f: FormData, zone: string): Promise<{ body: Record<s
 		if (to === null) errors.to = 'Give the end as a date and time.';
 		body.golden = { from, to: to === null ? null : to + 59_999 };
 	} else if (rule === 'lots' || rule === 'waferIds') {
-		let list = splitList(text(f, rule));
-		const file = f.get(`${rule}File`);
-		if (file instanceof File && file.size > 0) {
-			if (file.size > MAX_FILE) errors[rule] = `${file.name} is larger than 2 MB; a golden list is at most 5,000 entries.`;
-			else list = list.concat(splitList(await file.text()));
-		}
-		if (list.length === 0 && !errors[rule]) errors[rule] = rule === 'lots' ? 'Paste the lot ids or upload a file of them.' : 'Paste the wafer ids or upload a file of them.';
+		const { list, error } = await listFromForm(f, rule, `${rule}File`);
+		if (error) errors[rule] = error;
+		else if (list.length === 0) errors[rule] = rule === 'lots' ? 'Paste the lot ids or upload a file of them.' : 'Paste the wafer ids or upload a file of them.';
 		body.golden = { [rule]: list };
 	} else if (rule === 'afterWetClean') body.golden = { afterWetClean: { count: Number(text(f, 'count')) } };
 	else errors.rule = 'Choose how the golden wafers are chosen.';

@@ -7,8 +7,7 @@ import { rescoreSince } from '$lib/server/scoring';
 import { runningTasks, startTask } from '$lib/server/tasks';
 import { baselineWorkspace } from '$lib/server/views/baseline-view';
 import { latestWetClean, MAX_GOLDEN, selectGolden, type GoldenRule, type GoldenSelection } from '$lib/server/golden-sets';
-import { MAX_LIST } from '$lib/server/golden-sets';
-import { splitList } from '$lib/server/qualification-input';
+import { listFromForm } from '$lib/server/qualification-input';
 import type { Actions, PageServerLoad, RequestEvent } from './$types';
 
 const HOUR = 3_600_000;
@@ -112,15 +111,9 @@ export const actions: Actions = {
 		const ws = await workspaceOf(params);
 		const f = await request.formData();
 		const kind = text(f, 'listKind') === 'lots' ? 'lots' : 'waferIds';
-		let list = splitList(text(f, 'list'));
-		const file = f.get('listFile');
-		if (file instanceof File && file.size > 0) {
-			if (file.size > 2 * 1024 * 1024) return fail(400, { action: 'choose', errors: { list: `${file.name} is larger than 2 MB; a golden list is at most ${MAX_LIST.toLocaleString('en')} entries.` }, list: text(f, 'list'), listKind: kind });
-			list = list.concat(splitList(await file.text()));
-		}
-		list = [...new Set(list)];
+		const { list, error } = await listFromForm(f, 'list', 'listFile');
+		if (error) return fail(400, { action: 'choose', errors: { list: error }, list: text(f, 'list'), listKind: kind });
 		if (list.length === 0) return fail(400, { action: 'choose', errors: { list: kind === 'lots' ? 'Paste lot ids or upload a file of them.' : 'Paste wafer ids or upload a file of them.' }, list: '', listKind: kind });
-		if (list.length > MAX_LIST) return fail(400, { action: 'choose', errors: { list: `${list.length.toLocaleString('en')} entries; at most ${MAX_LIST.toLocaleString('en')}.` }, list: text(f, 'list'), listKind: kind });
 		const rule: GoldenRule = kind === 'lots' ? { kind: 'lots', lots: list } : { kind: 'waferIds', waferIds: list };
 		return { action: 'choose', selection: shownSelection(await selectGolden(ws.chamber.id, ws.step.id, rule)), list: list.join('\n'), listKind: kind };
 	},
