@@ -18,7 +18,8 @@ const SUITES: [string, string, string][] = [
 	['ingest', './ingest.ts', 'runIngestBench'],
 	['heatmap', './heatmap.ts', 'runHeatmapBench'],
 	['wafer', './wafer.ts', 'runWaferBench'],
-	['structure', './structure.ts', 'runStructureBench']
+	['structure', './structure.ts', 'runStructureBench'],
+	['onboarding', './onboarding.ts', 'runOnboardingBench']
 ];
 
 function fmt(v: number): string {

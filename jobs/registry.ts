@@ -7,6 +7,7 @@ import { runInbox } from './ingest-inbox.ts';
 import { runFleetJob } from './fleet-matching.ts';
 import { runMailSchedule } from './mail-digests.ts';
 import { runOutbox } from './mail-outbox.ts';
+import { runQualificationJob } from './qualifications.ts';
 
 export interface Job {
 	name: string;
@@ -21,5 +22,7 @@ export const JOBS: Job[] = [
 	// digests at each subscriber's time in their zone, and grouped alarm mails
 	{ name: 'mail-schedule', schedule: '* * * * *', run: () => runMailSchedule() },
 	// the outbox, every 10 s (six-field cron: seconds first); starts the local sink where it is used
-	{ name: 'mail-outbox', schedule: '*/10 * * * * *', run: () => runOutbox() }
+	{ name: 'mail-outbox', schedule: '*/10 * * * * *', run: () => runOutbox() },
+	// campaign drafts and rescores left by a stopped process, and requalification proposals (drafts only)
+	{ name: 'qualifications', schedule: process.env.LOCKSTEP_QUALIFICATION_CRON ?? '* * * * *', run: () => runQualificationJob() }
 ];

@@ -12,6 +12,7 @@ import * as mail from './20261201020000_mail.ts';
 import * as featureSetProposals from './20261201030000_feature_set_proposals.ts';
 import * as rollupSeasoning from './20261201040000_rollup_seasoning.ts';
 import * as structureAndTokens from './20261203050000_structure_and_tokens.ts';
+import * as qualifications from './20261203060000_qualifications.ts';
 
 const migrations: Record<string, Knex.Migration> = {
 	'20261201000000_foundation.ts': foundation,
@@ -21,7 +22,8 @@ const migrations: Record<string, Knex.Migration> = {
 	'20261201020000_mail.ts': mail,
 	'20261201030000_feature_set_proposals.ts': featureSetProposals,
 	'20261201040000_rollup_seasoning.ts': rollupSeasoning,
-	'20261203050000_structure_and_tokens.ts': structureAndTokens
+	'20261203050000_structure_and_tokens.ts': structureAndTokens,
+	'20261203060000_qualifications.ts': qualifications
 };
 
 export const migrationSource: Knex.MigrationSource<string> = {

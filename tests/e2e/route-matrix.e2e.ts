@@ -24,7 +24,7 @@ export const EXPECTED: Record<string, Entry> = {
 	'/alarms': { GET: 'viewer', actions: { acknowledge: 'engineer', close: 'engineer' } },
 	'/alarms/[id]': { path: '/alarms/1', GET: 'viewer', actions: { acknowledge: 'engineer', close: 'engineer' } },
 	'/baselines': { GET: 'viewer' },
-	'/baselines/[chamber]/[step]': { path: '/baselines/DE01-A/1', GET: 'viewer', actions: { draft: 'engineer', approve: 'engineer', discard: 'engineer', rescore: 'engineer' } },
+	'/baselines/[chamber]/[step]': { path: '/baselines/DE01-A/1', GET: 'viewer', actions: { choose: 'viewer', draft: 'engineer', approve: 'engineer', discard: 'engineer', rescore: 'engineer' } },
 	'/maintenance': { GET: 'viewer', actions: { log: 'engineer' } },
 	'/admin/policy': { GET: 'admin', actions: { alarm: 'admin', baseline: 'admin', ingest: 'admin' } },
 	'/admin/cause-codes': { GET: 'admin', actions: { add: 'admin', rename: 'admin', retire: 'admin', restore: 'admin' } },
@@ -62,7 +62,14 @@ export const EXPECTED: Record<string, Entry> = {
 	},
 	'/api/chambers': { GET: 'viewer', POST: 'admin' },
 	'/account/tokens': { GET: 'viewer', actions: { create: 'viewer', revoke: 'viewer' } },
-	'/api/openapi.json': { GET: 'public' }
+	'/api/openapi.json': { GET: 'public' },
+	// Qualification campaigns. The demo seeds none: a campaign's page and API are probed by role in
+	// qualification-campaign.e2e.ts; an unknown id answers 404 to those allowed.
+	'/qualifications': { GET: 'viewer', actions: { create: 'engineer' } },
+	'/qualifications/[id]': { path: '/qualifications/999999', actions: { approve: 'engineer' } },
+	'/api/qualifications': { GET: 'viewer', POST: 'engineer' },
+	'/api/qualifications/[id]': { path: '/api/qualifications/999999' },
+	'/api/qualifications/[id]/approve': { path: '/api/qualifications/999999/approve', POST: 'engineer' }
 };
 
 const WHO: Who[] = ['anonymous', 'viewer', 'engineer', 'admin'];

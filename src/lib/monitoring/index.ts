@@ -39,6 +39,7 @@ export {
 	type RankedContribution
 } from './contributions';
 export { modifiedZScores, MODIFIED_Z_THRESHOLD, type ModifiedZ } from './robust';
+export { screenGoldenCandidates, SCREENING_METHOD, type ScreeningResult, type ScreenedWafer, type ScreeningOptions } from './golden-screening';
 export {
 	compareChambers,
 	type ChamberWafers,

@@ -44,14 +44,20 @@ export interface GoldenCandidate {
  * a golden set by default: inside an open alarm, or within the seasoning window after a wet clean.
  */
 export async function goldenCandidates(
-	q: { chamberId: number; recipeStepId: number; from: number; to: number },
+	q: { chamberId: number; recipeStepId: number; from: number; to: number; lots?: string[]; waferIds?: string[]; limit?: number },
 	k: Knex = db()
 ): Promise<GoldenCandidate[]> {
 	const policy = await getSetting('baseline_policy', k);
-	const rows = await k('wafer_steps')
+	const rows: { id: number; wafer_id: string; lot_id: string; processed_at: number | string; golden: boolean | number }[] = await k('wafer_steps')
 		.where({ chamber_id: q.chamberId, recipe_step_id: q.recipeStepId })
 		.andWhere('processed_at', '>=', q.from)
 		.andWhere('processed_at', '<=', q.to)
+		.modify((qb) => {
+			// lists are chunked by the caller's size limits (a few thousand at most: golden sets, not history)
+			if (q.lots) qb.whereIn('lot_id', q.lots);
+			if (q.waferIds) qb.whereIn('wafer_id', q.waferIds);
+			if (q.limit) qb.limit(q.limit);
+		})
 		.orderBy([{ column: 'processed_at' }, { column: 'id' }])
 		.select('id', 'wafer_id', 'lot_id', 'processed_at', 'golden');
 	const alarms = await k('alarms as a')
@@ -387,6 +393,12 @@ export async function approveBaseline(id: number, approverId: string, k: Knex = 
 		const prev = await scopeQuery().first('id');
 		if (prev) await trx('baselines').where({ id: prev.id }).update({ status: 'retired', retired_at: t });
 		await trx('baselines').where({ id }).update({ status: 'active', approved_by: approverId, approved_at: t });
+		// The record of which wafers were golden: the fleet model and every later view read it. Wafers of
+		// a retired baseline keep theirs (they were golden then; the baseline history says for which).
+		if (b.scope === 'chamber')
+			await trx('wafer_steps')
+				.whereIn('id', trx('baseline_training_wafers').where({ baseline_id: id }).select('wafer_step_id'))
+				.update({ golden: true });
 		if (b.chamber_id !== null) await maybeEndRequalify(trx, b.chamber_id);
 		return { retired: prev?.id ?? null };
 	});

@@ -30,7 +30,7 @@ export const ROUTE_POLICY: Record<string, RoutePolicy> = {
 	'/alarms': { GET: 'viewer', actions: { acknowledge: 'engineer', close: 'engineer' } },
 	'/alarms/[id]': { GET: 'viewer', actions: { acknowledge: 'engineer', close: 'engineer' } },
 	'/baselines': { GET: 'viewer' },
-	'/baselines/[chamber]/[step]': { GET: 'viewer', actions: { draft: 'engineer', approve: 'engineer', discard: 'engineer', rescore: 'engineer' } },
+	'/baselines/[chamber]/[step]': { GET: 'viewer', actions: { choose: 'viewer', draft: 'engineer', approve: 'engineer', discard: 'engineer', rescore: 'engineer' } },
 	'/maintenance': { GET: 'viewer', actions: { log: 'engineer' } },
 	'/admin/policy': { GET: 'admin', actions: { alarm: 'admin', baseline: 'admin', ingest: 'admin' } },
 	'/admin/cause-codes': { GET: 'admin', actions: { add: 'admin', rename: 'admin', retire: 'admin', restore: 'admin' } },
@@ -74,7 +74,13 @@ export const ROUTE_POLICY: Record<string, RoutePolicy> = {
 	},
 	'/api/chambers': { GET: 'viewer', POST: 'admin', token: ['read', 'ingest'] },
 	'/account/tokens': { GET: 'viewer', actions: { create: 'viewer', revoke: 'viewer' } },
-	'/api/openapi.json': { GET: 'public' }
+	'/api/openapi.json': { GET: 'public' },
+	// Qualification campaigns: everyone reads them; engineers start and approve (four-eyes in the code).
+	'/qualifications': { GET: 'viewer', actions: { create: 'engineer' } },
+	'/qualifications/[id]': { GET: 'viewer', actions: { approve: 'engineer' } },
+	'/api/qualifications': { GET: 'viewer', POST: 'engineer', token: 'read' },
+	'/api/qualifications/[id]': { GET: 'viewer', token: 'read' },
+	'/api/qualifications/[id]/approve': { POST: 'engineer' }
 };
 
 /** The form action named by a POST to a page: `?/name`, or `default`. */

@@ -17,6 +17,7 @@ export const NAV: NavItem[] = [
 	{ href: '/alarms', label: 'Alarms', role: 'viewer', match: ['/alarms'] },
 	{ href: '/fleet', label: 'Matching', role: 'viewer', match: ['/fleet'] },
 	{ href: '/baselines', label: 'Baselines', role: 'viewer', match: ['/baselines'] },
+	{ href: '/qualifications', label: 'Qualify', role: 'viewer', match: ['/qualifications'] },
 	{ href: '/maintenance', label: 'Maintenance', role: 'viewer', match: ['/maintenance'] },
 	{ href: '/uploads', label: 'Uploads', role: 'engineer', match: ['/uploads'] },
 	// Viewers may read feature-set changes but have no uploads page to reach them from.

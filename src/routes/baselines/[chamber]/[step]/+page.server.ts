@@ -6,7 +6,9 @@ import { fromLocalInput, toLocalInput } from '$lib/components/display/format';
 import { hasRole } from '$lib/server/roles';
 import { rescoreSince } from '$lib/server/scoring';
 import { runningTasks, startTask } from '$lib/server/tasks';
-import { baselineWorkspace, candidatesFor } from '$lib/server/views/baseline-view';
+import { baselineWorkspace } from '$lib/server/views/baseline-view';
+import { latestWetClean, MAX_GOLDEN, selectGolden, type GoldenRule, type GoldenSelection } from '$lib/server/golden-sets';
+import { listFromForm } from '$lib/server/qualification-input';
 import type { Actions, PageServerLoad, RequestEvent } from './$types';
 
 const HOUR = 3_600_000;
@@ -19,12 +21,27 @@ async function workspaceOf(params: { chamber: string; step: string }) {
 	return ws;
 }
 
+/** Wafers shown in the picker at most (ticked first, then the left-out ones). */
+const MAX_SHOWN = 1500;
+/** The default count of the after-wet-clean rule (a couple of lots' worth; common practice). */
+const DEFAULT_AFTER_CLEAN = 60;
+
+function shownSelection(sel: GoldenSelection) {
+	const truncated = Math.max(0, sel.candidates.length - MAX_SHOWN);
+	return { ...sel, candidates: truncated ? sel.candidates.slice(0, MAX_SHOWN) : sel.candidates, truncated };
+}
+
 export const load: PageServerLoad = async ({ params, url, locals, cookies }) => {
 	const ws = await workspaceOf(params);
 	const zone = clockZone(cookies, locals.user);
 	const last = ws.range.last ?? Date.now();
-	// Default range: since the requalify began (after maintenance), else the last week of wafers. When
-	// the maintenance came after the latest wafer, the range runs from it to now (and is empty for now).
+	const wetCleanAt = await latestWetClean(ws.chamber.id);
+	// Default golden rule: after the latest wet clean, the first in-control wafers past seasoning; with
+	// no wet clean logged, the last week of wafers. Either way the candidates are screened robustly, so
+	// a history loaded with its excursions does not get them ticked.
+	const asked = url.searchParams.get('rule');
+	const rangeAsked = url.searchParams.has('from') || url.searchParams.has('to');
+	const ruleKind = asked === 'range' || asked === 'afterWetClean' ? asked : rangeAsked || wetCleanAt === null ? 'range' : 'afterWetClean';
 	const from0 = ws.chamber.requalifySince ?? last - 7 * 24 * HOUR;
 	const dflt = { from: from0, to: Math.max(last, from0 > last ? Date.now() : last) };
 	const fromText = url.searchParams.get('from');
@@ -47,12 +64,21 @@ export const load: PageServerLoad = async ({ params, url, locals, cookies }) => 
 		from = dflt.from;
 		to = dflt.to;
 	}
-	const candidates = await candidatesFor({ chamberId: ws.chamber.id, recipeStepId: ws.step.id, from, to });
+	const countText = url.searchParams.get('count');
+	let count = DEFAULT_AFTER_CLEAN;
+	if (countText) {
+		const c = Number(countText);
+		if (Number.isInteger(c) && c >= 10 && c <= MAX_GOLDEN) count = c;
+		else rangeErrors.count = `Give a whole number from 10 to ${MAX_GOLDEN}; showing ${DEFAULT_AFTER_CLEAN}.`;
+	}
+	const rule: GoldenRule = ruleKind === 'afterWetClean' ? { kind: 'afterWetClean', count } : { kind: 'range', from, to };
+	const selection = shownSelection(await selectGolden(ws.chamber.id, ws.step.id, rule));
 	const tasks = runningTasks('rescore').filter((t) => t.label.startsWith(`${ws.chamber.code} · ${ws.step.recipeCode} ${ws.step.stepName}`));
 	return {
 		ws,
+		rule: { kind: ruleKind, count, wetCleanAt, defaulted: asked === null && !rangeAsked },
 		range: { from, to, fromInput: toLocalInput(from, zone), toInput: toLocalInput(to, zone), errors: rangeErrors },
-		candidates,
+		selection,
 		selectedDraft: Number(url.searchParams.get('draft')) || ws.drafts[0]?.id || null,
 		tasks,
 		canAct: hasRole(locals.user?.role, 'engineer'),
@@ -81,6 +107,17 @@ function rescoreFrom(f: FormData, zone: string): { since: number | null; error?:
 }
 
 export const actions: Actions = {
+	/** Candidates from a pasted or uploaded list of lots or wafer ids (too long for a link). */
+	choose: async ({ request, params }: RequestEvent) => {
+		const ws = await workspaceOf(params);
+		const f = await request.formData();
+		const kind = text(f, 'listKind') === 'lots' ? 'lots' : 'waferIds';
+		const { list, error } = await listFromForm(f, 'list', 'listFile');
+		if (error) return fail(400, { action: 'choose', errors: { list: error }, list: text(f, 'list'), listKind: kind });
+		if (list.length === 0) return fail(400, { action: 'choose', errors: { list: kind === 'lots' ? 'Paste lot ids or upload a file of them.' : 'Paste wafer ids or upload a file of them.' }, list: '', listKind: kind });
+		const rule: GoldenRule = kind === 'lots' ? { kind: 'lots', lots: list } : { kind: 'waferIds', waferIds: list };
+		return { action: 'choose', selection: shownSelection(await selectGolden(ws.chamber.id, ws.step.id, rule)), list: list.join('\n'), listKind: kind };
+	},
 	draft: async ({ request, params, locals }: RequestEvent) => {
 		const ws = await workspaceOf(params);
 		const f = await request.formData();
