@@ -7,14 +7,25 @@ export type {
 	DemoFeature,
 	DemoMaintenance,
 	DemoScenario,
+	DemoRealVolume,
 	DemoWaferStep,
 	EpisodeKind
 } from './types';
-export { buildScenario, CLEAN_INTERVAL_WAFERS, DEFAULT_DAYS, DEFAULT_END, DEFAULT_SEED } from './scenario';
+export {
+	buildScenario,
+	CLEAN_INTERVAL_WAFERS,
+	DEFAULT_DAYS,
+	DEFAULT_END,
+	DEFAULT_REAL_VOLUME_DAYS,
+	DEFAULT_SEED,
+	REAL_VOLUME_CLEAN_INTERVAL_RF_HOURS
+} from './scenario';
+export { OVERHEAD_S, REAL_VOLUME_WAFERS_PER_HOUR, WAFERS_PER_CHAMBER_DAY } from './schedule';
 export {
 	generateWaferSteps,
 	goldenWaferKeys,
 	GOLDEN_SAMPLE_EVERY,
+	GOLDEN_SAMPLE_EVERY_REAL_VOLUME,
 	QUALIFICATION_PER_LOT,
 	QUALIFICATION_WAFERS,
 	SEASONING_WAFERS
