@@ -30,7 +30,7 @@ export {
 	QUALIFICATION_WAFERS,
 	SEASONING_WAFERS
 } from './generate';
-export { csvHeader, csvLine, REQUIRED_COLUMNS, writeWaferSummaryCsv, writeWaferSummaryCsvFile } from './csv';
+export { csvHeader, csvLine, formatValue, REQUIRED_COLUMNS, writeWaferSummaryCsv, writeWaferSummaryCsvFile } from './csv';
 export { airLeakSccm, heLeakSccm, o2FlowFactor, PART_SWAP_OFFSET, rfMatchWearFraction } from './episodes';
 export { EPISODE_CHAMBERS } from './fab';
 export { oesChannels, oesName, renderSpectrum, transmission } from './spectrum';
