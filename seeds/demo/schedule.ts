@@ -17,11 +17,13 @@ export const WAFERS_PER_CHAMBER_DAY = 17.5;
 export const REAL_VOLUME_WAFERS_PER_HOUR = 20;
 /**
  * Wafer handling around the RF time of one wafer (transfer in and out, pump-down, gas and pressure
- * stabilisation, strike), s: about a minute in a cluster tool (from memory). With the demo's 60–75 s
- * of RF time a chamber can do 27–30 wafers an hour, so at 20 an hour it is about 70 % loaded and the
- * queue stays short.
+ * stabilisation, strike), s. In the compressed weeks a lot comes to an idle tool: 100 s. At real
+ * volume the tool keeps the next wafer staged in the load lock while the chamber runs, so only the
+ * exchange and stabilisation remain: about a minute (from memory). With the demo's 60–75 s of RF time
+ * a chamber can then do 27–30 wafers an hour, so at 20 an hour it is about 70 % loaded and its queue
+ * stays short.
  */
-export const OVERHEAD_S = 60;
+export const OVERHEAD_S = { compressed: 100, realVolume: 60 } as const;
 /**
  * Lot-to-lot spread (1 σ) of the etch-product load within one recipe: the same product and mask, so
  * only incoming film thickness and resist vary, about 2 % (demo choice, from memory).
@@ -104,7 +106,8 @@ export function scheduleWafers(scenario: DemoScenario, seed: number): Map<string
 	const freeAt = new Map<string, number>(scenario.chambers.map((c) => [c.code, startMs]));
 	lots.forEach((lot, i) => {
 		const lotId = `L${26000 + i}`;
-		const cycleMs = (rfSecondsPerWafer(scenario, lot.recipe) + OVERHEAD_S) * 1000;
+		const overheadS = volumeFrom !== null && lot.arrival >= volumeFrom ? OVERHEAD_S.realVolume : OVERHEAD_S.compressed;
+		const cycleMs = (rfSecondsPerWafer(scenario, lot.recipe) + overheadS) * 1000;
 		const able = scenario.chambers.filter((c) => c.toolCode === lot.tool && c.recipes.includes(lot.recipe));
 		for (let slot = 1; slot <= lot.size; slot++) {
 			const ready = lot.arrival + (slot - 1) * 40_000;
