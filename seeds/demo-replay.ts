@@ -174,12 +174,6 @@ export async function replayDemo(k: Knex, s: DemoScenario, log: (s: string) => v
 	return report;
 }
 
-/**
- * The engineers' daily review: open alarms opened before `before` are acknowledged. Cause codes follow
- * the episodes the engineers came to know; anything else within a day of a wet clean was seasoning,
- * the rest false alarms (closed). Alarms of an ongoing episode stay acknowledged and go on being
- * extended; they are closed once the episode is over.
- */
 /** The episode an alarm overlaps (on its chamber, between its opening and its last wafer), if any: the review's first test. */
 export function episodeOfAlarm(s: DemoScenario, a: { code: string; opened_at: number; last_seen_at: number }): DemoEpisode | undefined {
 	return s.episodes.find((e) => e.chamberCode === a.code && Number(a.last_seen_at) >= e.start.getTime() && (!e.end || Number(a.opened_at) <= e.end.getTime()));
@@ -205,6 +199,12 @@ export function judgeAlarm(s: DemoScenario, a: { code: string; opened_at: number
 	return cleanWithinDayBefore ? 'PRC-SEAS' : 'FA-LIMIT';
 }
 
+/**
+ * The engineers' daily review: open alarms opened before `before` are acknowledged. Cause codes follow
+ * the episodes the engineers came to know; anything else within a day of a wet clean was seasoning,
+ * the rest false alarms (closed). Alarms of an ongoing episode stay acknowledged and go on being
+ * extended; they are closed once the episode is over.
+ */
 async function reviewAlarms(k: Knex, s: DemoScenario, engineers: string[], before: number, report: ReplayReport) {
 	const episodeOf = (a: { code: string; opened_at: number; last_seen_at: number }) => episodeOfAlarm(s, a);
 	const acknowledged = await k('alarms as a')
