@@ -4,7 +4,7 @@
  * fleet matching). See demo-seed.ts.
  */
 import type { Knex } from 'knex';
-import { generateWaferSteps, type DemoScenario, type DemoWaferStep } from './demo/index.ts';
+import { generateWaferSteps, type DemoEpisode, type DemoScenario, type DemoWaferStep } from './demo/index.ts';
 import { acknowledgeAlarms, closeAlarm } from '../src/lib/server/alarms.ts';
 import { approveBaseline, createDraftBaseline } from '../src/lib/server/baselines.ts';
 import { buildFleetModel, runFleetMatching } from '../src/lib/server/fleet-matching.ts';
@@ -21,9 +21,19 @@ export interface ReplayReport {
 	alarms: number;
 	acknowledged: number;
 	maintenance: number;
+	/** Wall-clock time of each part of the replay, ms (where the seed's time goes). */
+	phases: Record<ReplayPhase, number>;
 }
 
+export type ReplayPhase = 'generate' | 'write CSV' | 'ingest and score' | 'golden marks' | 'baselines' | 'fleet' | 'review';
+
 const DAY = 86_400_000;
+/**
+ * In the real-volume tail the engineers' loop (ingest, requalification, fleet matching) runs once a
+ * shift, not once a day: at 20 wafers an hour a chamber cleaned in the morning must not wait until
+ * midnight for its requalified baseline. The morning review stays daily.
+ */
+const SHIFT = 8 * 3_600_000;
 /** Golden wafers needed before the first baseline of a chamber × step (enough for ~250 features' k). */
 const FIRST_BASELINE_GOLDEN = 40;
 /** Golden wafers (per recipe step) of a new clean cycle before the chamber is requalified with a rebuilt baseline. */
@@ -32,7 +42,16 @@ const REQUALIFY_GOLDEN = 8;
 const BASELINE_GOLDEN_MAX = 80;
 
 export async function replayDemo(k: Knex, s: DemoScenario, log: (s: string) => void): Promise<ReplayReport> {
-	const report: ReplayReport = { waferSteps: 0, files: 0, baselines: 0, fleetModels: 0, alarms: 0, acknowledged: 0, maintenance: 0 };
+	const phases: Record<ReplayPhase, number> = { generate: 0, 'write CSV': 0, 'ingest and score': 0, 'golden marks': 0, baselines: 0, fleet: 0, review: 0 };
+	const report: ReplayReport = { waferSteps: 0, files: 0, baselines: 0, fleetModels: 0, alarms: 0, acknowledged: 0, maintenance: 0, phases };
+	const timed = async <T>(phase: ReplayPhase, f: () => Promise<T>): Promise<T> => {
+		const t0 = performance.now();
+		try {
+			return await f();
+		} finally {
+			phases[phase] += performance.now() - t0;
+		}
+	};
 	const users = new Map<string, string>((await k('users').select('id', 'username')).map((u) => [u.username, u.id]));
 	const engineers = s.people.filter((p) => p.role === 'engineer').map((p) => users.get(p.username)!);
 	const builder = engineers[0];
@@ -45,7 +64,11 @@ export async function replayDemo(k: Knex, s: DemoScenario, log: (s: string) => v
 		await logMaintenanceEvent(maintenance[mIdx++]);
 	}
 	const fleetBuilt = new Set<number>();
-	let dayEnd = s.start.getTime() + DAY;
+	const volumeFrom = s.realVolume ? s.realVolume.from.getTime() : Infinity;
+	/** Periods end at each day's boundary in the compressed weeks and at each shift's in the real-volume tail. */
+	const periodAfter = (t: number) => Math.min(t + (t >= volumeFrom ? SHIFT : DAY), s.end.getTime());
+	let periodStart = s.start.getTime();
+	let dayEnd = periodAfter(periodStart);
 	let day: DemoWaferStep[] = [];
 
 	async function logMaintenanceEvent(m: DemoScenario['maintenance'][number]) {
@@ -61,17 +84,31 @@ export async function replayDemo(k: Knex, s: DemoScenario, log: (s: string) => v
 		// The technicians log the day's cleans as they happen, so wafers after a clean are seen as
 		// seasoning when they are scored.
 		while (mIdx < maintenance.length && maintenance[mIdx].at.getTime() <= until) await logMaintenanceEvent(maintenance[mIdx++]);
-		const loaded = await loadDemoDay(k, s, day, new Date(until - DAY).toISOString().slice(0, 10), null);
+		const from = new Date(periodStart).toISOString();
+		const label = until - periodStart < DAY ? `${from.slice(0, 10)}_${from.slice(11, 13)}00` : from.slice(0, 10);
+		const loaded = await loadDemoDay(k, s, day, label, null);
+		phases['write CSV'] += loaded.ms.csv;
+		phases['ingest and score'] += loaded.ms.ingest;
+		phases['golden marks'] += loaded.ms.golden;
 		report.waferSteps += loaded.waferSteps;
 		report.files += loaded.files;
 		day = [];
 		await engineersAtWork(until);
 		// The morning review of the day before; the demo's last two days are left for the user.
-		if (until <= s.end.getTime() - 2 * DAY) await reviewAlarms(k, s, engineers, until - DAY / 2, report);
+		const dayBoundary = (until - s.start.getTime()) % DAY === 0;
+		if (dayBoundary && until <= s.end.getTime() - 2 * DAY) await timed('review', () => reviewAlarms(k, s, engineers, until - DAY / 2, report));
 	}
 
 	/** What the module engineers do at the end of a day: baselines where due, fleet models, matching. */
 	async function engineersAtWork(until: number) {
+		await timed('baselines', () => baselinesDue());
+		// Fleet matching once a day, as the morning check (matching at every shift of the tail cost
+		// ≈ 1 s per recipe step over a real-volume window, a third of the seed's time, for nothing new).
+		if ((until - s.start.getTime()) % DAY === 0 || until === s.end.getTime()) await timed('fleet', () => fleetWork(until));
+	}
+
+	/** Baselines where due: a first one once enough golden wafers, a rebuilt one after each wet clean. */
+	async function baselinesDue() {
 		const pairs = await k('wafer_steps').distinct('chamber_id', 'recipe_step_id');
 		for (const { chamber_id: chamberId, recipe_step_id: stepId } of pairs) {
 			const active = await k('baselines').where({ scope: 'chamber', chamber_id: chamberId, recipe_step_id: stepId, status: 'active' }).first('approved_at');
@@ -93,6 +130,9 @@ export async function replayDemo(k: Knex, s: DemoScenario, log: (s: string) => v
 			report.baselines++;
 			if (!active) await rescoreSince(k, { chamberId, recipeStepId: stepId, since: s.start.getTime() });
 		}
+	}
+
+	async function fleetWork(until: number) {
 		// Fleet models once every chamber of a step has its own baseline; then match each day.
 		const steps = await k('recipe_steps').pluck('id');
 		for (const stepId of steps as number[]) {
@@ -109,12 +149,20 @@ export async function replayDemo(k: Knex, s: DemoScenario, log: (s: string) => v
 		}
 	}
 
-	for (const row of generateWaferSteps(s)) {
+	const rows = generateWaferSteps(s);
+	for (;;) {
+		const g0 = performance.now();
+		const next = rows.next();
+		phases.generate += performance.now() - g0;
+		if (next.done) break;
+		const row = next.value;
 		const t = row.processedAt.getTime();
 		while (t >= dayEnd) {
 			await endOfDay(dayEnd);
-			log(`  day ${new Date(dayEnd - DAY).toISOString().slice(0, 10)} loaded (${report.waferSteps.toLocaleString('en')} wafer-steps so far)`);
-			dayEnd += DAY;
+			const what = dayEnd - periodStart < DAY ? `shift ending ${new Date(dayEnd).toISOString().slice(0, 16)}Z` : `day ${new Date(periodStart).toISOString().slice(0, 10)}`;
+			log(`  ${what} loaded (${report.waferSteps.toLocaleString('en')} wafer-steps so far)`);
+			periodStart = dayEnd;
+			dayEnd = periodAfter(dayEnd);
 		}
 		day.push(row);
 	}
@@ -126,6 +174,31 @@ export async function replayDemo(k: Knex, s: DemoScenario, log: (s: string) => v
 	return report;
 }
 
+/** The episode an alarm overlaps (on its chamber, between its opening and its last wafer), if any: the review's first test. */
+export function episodeOfAlarm(s: DemoScenario, a: { code: string; opened_at: number; last_seen_at: number }): DemoEpisode | undefined {
+	return s.episodes.find((e) => e.chamberCode === a.code && Number(a.last_seen_at) >= e.start.getTime() && (!e.end || Number(a.opened_at) <= e.end.getTime()));
+}
+
+/** The cause code the daily review gives an alarm of each episode (the air leak's is left for the morning's user). */
+export const EPISODE_CAUSE: Readonly<Record<string, string>> = {
+	o2_mfc_drift: 'HW-MFC',
+	he_backside_leak: 'HW-HE',
+	rf_match_wear: 'HW-RFM',
+	part_swap_offset: 'HW-SWAP',
+	air_leak: 'HW-LEAK'
+};
+
+/**
+ * The review's judge, as one function so the seed's figures (demo-figures.ts) judge every alarm as
+ * the review does: an alarm overlapping an episode gets that episode's cause, one opened within a day
+ * after a wet clean on its chamber is seasoning, every other one a statistical false alarm.
+ */
+export function judgeAlarm(s: DemoScenario, a: { code: string; opened_at: number; last_seen_at: number }, cleanWithinDayBefore: boolean): string {
+	const ep = episodeOfAlarm(s, a);
+	if (ep) return EPISODE_CAUSE[ep.kind] ?? 'OTH';
+	return cleanWithinDayBefore ? 'PRC-SEAS' : 'FA-LIMIT';
+}
+
 /**
  * The engineers' daily review: open alarms opened before `before` are acknowledged. Cause codes follow
  * the episodes the engineers came to know; anything else within a day of a wet clean was seasoning,
@@ -133,8 +206,7 @@ export async function replayDemo(k: Knex, s: DemoScenario, log: (s: string) => v
  * extended; they are closed once the episode is over.
  */
 async function reviewAlarms(k: Knex, s: DemoScenario, engineers: string[], before: number, report: ReplayReport) {
-	const episodeOf = (a: { code: string; opened_at: number; last_seen_at: number }) =>
-		s.episodes.find((e) => e.chamberCode === a.code && Number(a.last_seen_at) >= e.start.getTime() && (!e.end || Number(a.opened_at) <= e.end.getTime()));
+	const episodeOf = (a: { code: string; opened_at: number; last_seen_at: number }) => episodeOfAlarm(s, a);
 	const acknowledged = await k('alarms as a')
 		.join('chambers as c', 'c.id', 'a.chamber_id')
 		.where('a.state', 'acknowledged')
@@ -180,7 +252,7 @@ async function reviewAlarms(k: Knex, s: DemoScenario, engineers: string[], befor
 			report.acknowledged++;
 			continue;
 		}
-		const cause = clean ? 'PRC-SEAS' : 'FA-LIMIT';
+		const cause = judgeAlarm(s, a, !!clean);
 		const comment = clean ? 'Within a day of the wet clean: walls still seasoning.' : 'Single excursion, neighbours in family, no physical cause found.';
 		await acknowledgeAlarms(k, { alarmIds: [a.id], userId: user, causeCode: cause, disposition: 'continue', comment });
 		await closeAlarm(k, { alarmId: a.id, userId: user, comment: 'Back in family.' });

@@ -1,7 +1,7 @@
 /**
  * Write the demo fab to files, as the tool hosts would deliver it:
  *
- *   node --import tsx seeds/demo/export.ts OUTDIR [--seed N] [--end ISO] [--days N]
+ *   node --import tsx seeds/demo/export.ts OUTDIR [--seed N] [--end ISO] [--days N] [--volume-days N]
  *
  * OUTDIR gets one wafer-summary CSV per UTC day and recipe step (`YYYY-MM-DD_<recipe>_<step>.csv`,
  * so name order is time order), plus `scenario.json` (fab, areas, tools, chambers, recipes, features,
@@ -69,11 +69,16 @@ function main(argv: string[]) {
 	const { values, positionals } = parseArgs({
 		args: argv,
 		allowPositionals: true,
-		options: { seed: { type: 'string' }, end: { type: 'string' }, days: { type: 'string' } }
+		options: {
+			seed: { type: 'string' },
+			end: { type: 'string' },
+			days: { type: 'string' },
+			'volume-days': { type: 'string' }
+		}
 	});
 	if (positionals.length !== 1) {
 		console.error(
-			'usage: node --import tsx seeds/demo/export.ts OUTDIR [--seed N] [--end ISO-8601] [--days N]'
+			'usage: node --import tsx seeds/demo/export.ts OUTDIR [--seed N] [--end ISO-8601] [--days N] [--volume-days N]'
 		);
 		process.exit(2);
 	}
@@ -85,7 +90,12 @@ function main(argv: string[]) {
 	};
 	const end = values.end === undefined ? undefined : new Date(values.end);
 	if (end && Number.isNaN(end.getTime())) throw new RangeError(`--end is not a date: "${values.end}"`);
-	const scenario = buildScenario({ seed: num(values.seed, 'seed'), end, days: num(values.days, 'days') });
+	const scenario = buildScenario({
+		seed: num(values.seed, 'seed'),
+		end,
+		days: num(values.days, 'days'),
+		realVolumeDays: num(values['volume-days'], 'volume-days')
+	});
 	const s = exportDemo(scenario, positionals[0]);
 	const csvs = s.files.filter((f) => f.endsWith('.csv')).length;
 	console.log(

@@ -15,8 +15,9 @@ import { rfSecondsPerWafer, scheduleWafers, WAFERS_PER_CHAMBER_DAY, type Schedul
 import type { DemoScenario, DemoWaferStep } from './types';
 
 /** Golden-wafer story: after each wet clean, skip the seasoning window, qualify the next wafers (at
- * most {@link QUALIFICATION_PER_LOT} from any one lot), then keep every n-th wafer (metrology-sampled)
- * until the next clean, so golden sets span the clouding and many lots. */
+ * most {@link QUALIFICATION_PER_LOT} from any one lot), then keep every n-th wafer (metrology-sampled;
+ * n = 5 in the compressed weeks, 25 at real volume) until the next clean, so golden sets span the
+ * clouding and many lots. */
 export const SEASONING_WAFERS = 30;
 export const QUALIFICATION_WAFERS = 12;
 /**
@@ -26,6 +27,13 @@ export const QUALIFICATION_WAFERS = 12;
  */
 export const QUALIFICATION_PER_LOT = 2;
 export const GOLDEN_SAMPLE_EVERY = 5;
+/**
+ * At real volume a clean cycle is ≈ 1,500–2,000 wafers: one golden wafer in 25 (about one a lot, a
+ * usual metrology sampling rate: common practice) gives ≈ 70–80 a cycle, so the seed's baselines
+ * (the latest ≤ 80 golden wafers) still span one whole cycle of window clouding, as in the
+ * compressed weeks.
+ */
+export const GOLDEN_SAMPLE_EVERY_REAL_VOLUME = 25;
 /** Gap between the end of one step and the start of the next, s. */
 const STEP_GAP_S = 3;
 
@@ -96,6 +104,13 @@ function* chamberSteps(
 	const before = ci > 0 ? cleans[ci - 1] : startMs;
 	let sinceClean = Math.round(((startMs - before) / 86_400_000) * WAFERS_PER_CHAMBER_DAY);
 	let rfSeconds = sinceClean * rfSecondsPerWafer(scenario, chamber.recipes[0]);
+	// Window clouding runs on the PM counter's share of its interval: a cycle ends as clouded at real
+	// volume (30–40 RF-hours) as in the compressed weeks (100–140 wafers), because a fab sets the
+	// interval to keep deposits in bounds (common practice). `rfSeconds` counts in the compressed
+	// weeks' RF seconds; at real volume each real RF second counts compressed ÷ real.
+	const volumeFrom = scenario.realVolume ? scenario.realVolume.from.getTime() : Infinity;
+	const pm = scenario.pmIntervals[code];
+	const realScale = pm?.realVolumeRfS ? pm.compressedRfS / pm.realVolumeRfS : 1;
 	let qualified = new Map<string, number>();
 	let sampled = new Map<string, number>();
 
@@ -132,8 +147,17 @@ function* chamberSteps(
 			else if (ep.kind === 'rf_match_wear')
 				conditions.rfMatchWear = rfMatchWearFraction(ep, w.startMs, endMs);
 		}
+		const realVolume = w.startMs >= volumeFrom;
 		const golden =
-			!excluded && sinceClean >= SEASONING_WAFERS && isGolden(w.recipe, w.lotId, qualified, sampled);
+			!excluded &&
+			sinceClean >= SEASONING_WAFERS &&
+			isGolden(
+				w.recipe,
+				w.lotId,
+				qualified,
+				sampled,
+				realVolume ? GOLDEN_SAMPLE_EVERY_REAL_VOLUME : GOLDEN_SAMPLE_EVERY
+			);
 
 		let t = w.startMs;
 		for (const m of models.get(w.recipe)!) {
@@ -152,7 +176,7 @@ function* chamberSteps(
 				golden,
 				values
 			};
-			rfSeconds += rfOn;
+			rfSeconds += realVolume ? rfOn * realScale : rfOn;
 			t += (rfOn + STEP_GAP_S) * 1000;
 		}
 		sinceClean++;
@@ -164,7 +188,8 @@ function isGolden(
 	recipe: string,
 	lotId: string,
 	qualified: Map<string, number>,
-	sampled: Map<string, number>
+	sampled: Map<string, number>,
+	every: number
 ): boolean {
 	const q = qualified.get(recipe) ?? 0;
 	if (q < QUALIFICATION_WAFERS) {
@@ -177,7 +202,7 @@ function isGolden(
 	}
 	const s = (sampled.get(recipe) ?? 0) + 1;
 	sampled.set(recipe, s);
-	return s % GOLDEN_SAMPLE_EVERY === 0;
+	return s % every === 0;
 }
 
 /** Keys of the golden wafer-steps among `rows` (wafer, chamber, recipe, step). */

@@ -3,13 +3,21 @@ import { buildEpisodes } from './episodes';
 import { featureCatalog } from './features';
 import { RECIPE_PHYSICS } from './recipes';
 import { stream } from './rng';
-import { DOWNTIME_H, rfSecondsPerWafer, scheduleWafers, WAFERS_PER_CHAMBER_DAY } from './schedule';
-import type { DemoEpisode, DemoMaintenance, DemoScenario } from './types';
+import {
+	DOWNTIME_H,
+	REAL_VOLUME_WAFERS_PER_HOUR,
+	rfSecondsPerWafer,
+	scheduleWafers,
+	WAFERS_PER_CHAMBER_DAY
+} from './schedule';
+import type { DemoEpisode, DemoMaintenance, DemoRealVolume, DemoScenario } from './types';
 
 export const DEFAULT_SEED = 20261123;
 /** The demo ends on a Monday morning, 06:00 UTC, before the shift meeting. */
 export const DEFAULT_END = new Date('2026-11-23T06:00:00Z');
 export const DEFAULT_DAYS = 30;
+/** Days at the end of the window that run at a real chamber's volume (see {@link REAL_VOLUME_WAFERS_PER_HOUR}). */
+export const DEFAULT_REAL_VOLUME_DAYS = 3;
 export const DAY_MS = 86_400_000;
 const HOUR_MS = 3_600_000;
 
@@ -20,13 +28,20 @@ const HOUR_MS = 3_600_000;
  * @param opts.seed master seed (default {@link DEFAULT_SEED})
  * @param opts.end end of the production window (default {@link DEFAULT_END}); rounded down to a minute
  * @param opts.days length of the window in days (default 30, at least 20 so every episode fits)
- * @throws RangeError on a non-integer seed, an invalid end date or too few days
+ * @param opts.realVolumeDays whole days at the window's end run at real volume (default 3; 0: none,
+ *   the small variant; at most 10 so the compressed weeks still hold the first baselines)
+ * @throws RangeError on a non-integer seed, an invalid end date, too few days or a bad real-volume span
  */
-export function buildScenario(opts: { seed?: number; end?: Date; days?: number } = {}): DemoScenario {
+export function buildScenario(
+	opts: { seed?: number; end?: Date; days?: number; realVolumeDays?: number } = {}
+): DemoScenario {
 	const seed = opts.seed ?? DEFAULT_SEED;
 	const days = opts.days ?? DEFAULT_DAYS;
+	const volumeDays = opts.realVolumeDays ?? DEFAULT_REAL_VOLUME_DAYS;
 	if (!Number.isInteger(seed)) throw new RangeError('demo seed must be an integer');
 	if (!(days >= 20 && days <= 366)) throw new RangeError('demo days must be between 20 and 366');
+	if (!(Number.isInteger(volumeDays) && volumeDays >= 0 && volumeDays <= 10))
+		throw new RangeError('demo realVolumeDays must be a whole number from 0 to 10');
 	const endMs = Math.floor((opts.end ?? DEFAULT_END).getTime() / 60_000) * 60_000;
 	if (!Number.isFinite(endMs)) throw new RangeError('demo end must be a valid date');
 	const startMs = endMs - days * DAY_MS;
@@ -47,6 +62,14 @@ export function buildScenario(opts: { seed?: number; end?: Date; days?: number }
 		steps: r.steps.map((s) => ({ name: s.name, durationS: s.durationS }))
 	}));
 	const episodes = buildEpisodes(startMs, endMs);
+	const realVolume: DemoRealVolume | null =
+		volumeDays > 0
+			? {
+					from: new Date(endMs - volumeDays * DAY_MS),
+					wafersPerHour: REAL_VOLUME_WAFERS_PER_HOUR,
+					cleanIntervalRfHours: REAL_VOLUME_CLEAN_INTERVAL_RF_HOURS
+				}
+			: null;
 	const base = {
 		seed,
 		fab: { ...FAB },
@@ -58,7 +81,9 @@ export function buildScenario(opts: { seed?: number; end?: Date; days?: number }
 		people: PEOPLE.map((p) => ({ ...p })),
 		episodes,
 		start: new Date(startMs),
-		end: new Date(endMs)
+		end: new Date(endMs),
+		realVolume,
+		pmIntervals: {}
 	};
 	const maintenance = fabMaintenance(seed, base, startMs, endMs).sort(
 		(a, b) => a.at.getTime() - b.at.getTime() || a.chamberCode.localeCompare(b.chamberCode)
@@ -75,6 +100,14 @@ export function buildScenario(opts: { seed?: number; end?: Date; days?: number }
  * flag the long one's wafers: that is what PM counters avoid.
  */
 export const CLEAN_INTERVAL_WAFERS = [100, 140] as const;
+
+/**
+ * At real volume a chamber's PM counter is set in RF-hours a fab would use: 30–40 RF-hours, about
+ * 1,500–2,000 wafers or 3–5 days of production at 20 wafers an hour (etch chambers are wet-cleaned
+ * every few days to weeks, at tens to a few hundred RF-hours: from memory). When the tail begins,
+ * each counter keeps the share of its interval already used, so no chamber is due at once.
+ */
+export const REAL_VOLUME_CLEAN_INTERVAL_RF_HOURS = [30, 40] as const;
 
 interface ChamberPlan {
 	events: DemoMaintenance[];
@@ -131,6 +164,7 @@ function fabMaintenance(
 	startMs: number,
 	endMs: number
 ): DemoMaintenance[] {
+	const volumeFrom = base.realVolume ? base.realVolume.from.getTime() : Infinity;
 	const plans = new Map(base.chambers.map((c) => [c.code, episodeMaintenance(c.code, base.episodes)]));
 	const forcedCleans = (code: string, plan: ChamberPlan): DemoMaintenance[] =>
 		plan.forced.map((at) => ({
@@ -152,7 +186,13 @@ function fabMaintenance(
 		const rng = stream(seed, `cleans:${c.code}`);
 		const tech = () => TECHNICIANS[rng.int(0, TECHNICIANS.length - 1)];
 		const rfS = rfSecondsPerWafer(provisional, c.recipes[0]);
-		const interval = rng.between(CLEAN_INTERVAL_WAFERS[0], CLEAN_INTERVAL_WAFERS[1]) * rfS;
+		const compressed = rng.between(CLEAN_INTERVAL_WAFERS[0], CLEAN_INTERVAL_WAFERS[1]) * rfS;
+		// The real-volume interval comes from its own stream, so the compressed weeks stay the same.
+		const real = base.realVolume
+			? stream(seed, `pm-interval:${c.code}`).between(...base.realVolume.cleanIntervalRfHours) * 3600
+			: null;
+		base.pmIntervals[c.code] = { compressedRfS: compressed, realVolumeRfS: real };
+		let interval = compressed;
 		const target = () => interval * (1 + 0.03 * Math.max(-2, Math.min(2, rng.normal())));
 		// Counter reading at the window's start: it dates the last clean before the window.
 		let counter = rng.between(0.1, 0.85) * interval;
@@ -163,6 +203,12 @@ function fabMaintenance(
 		const forced = [...plan.forced].sort((a, b) => a - b);
 		for (const w of wafers.get(c.code) ?? []) {
 			if (stopped) break;
+			if (real !== null && interval !== real && w.startMs >= volumeFrom) {
+				// The tail begins: the counter keeps the share of the interval it has used.
+				counter *= real / interval;
+				due *= real / interval;
+				interval = real;
+			}
 			const f = forced.find((x) => x > cleans[cleans.length - 1] && x <= w.startMs);
 			if (f !== undefined) {
 				cleans.push(f);

@@ -5,10 +5,25 @@ import type { DemoScenario } from './types';
 const DAY_MS = 86_400_000;
 const HOUR_MS = 3_600_000;
 
-/** A low-volume line: about 17.5 wafers per chamber per day reach the demo (≈ 27k wafer-steps a month). */
+/**
+ * The compressed weeks: about 17.5 wafers per chamber per day reach the demo (≈ 26k wafer-steps a
+ * month), so a whole clean cycle, its seasoning and its golden wafers fit in a week.
+ */
 export const WAFERS_PER_CHAMBER_DAY = 17.5;
-/** Wafer handling between steps' RF time (transfer, pump-down, stabilisation), s. */
-const OVERHEAD_S = 100;
+/**
+ * A real chamber's pace in the real-volume tail, wafers per chamber and hour: etch chambers run
+ * roughly 15–30 wafers an hour (from memory); lots are released for 20.
+ */
+export const REAL_VOLUME_WAFERS_PER_HOUR = 20;
+/**
+ * Wafer handling around the RF time of one wafer (transfer in and out, pump-down, gas and pressure
+ * stabilisation, strike), s. In the compressed weeks a lot comes to an idle tool: 100 s. At real
+ * volume the tool keeps the next wafer staged in the load lock while the chamber runs, so only the
+ * exchange and stabilisation remain: about a minute (from memory). With the demo's 60–75 s of RF time
+ * a chamber can then do 27–30 wafers an hour, so at 20 an hour it is about 70 % loaded and its queue
+ * stays short.
+ */
+export const OVERHEAD_S = { compressed: 100, realVolume: 60 } as const;
 /**
  * Lot-to-lot spread (1 σ) of the etch-product load within one recipe: the same product and mask, so
  * only incoming film thickness and resist vary, about 2 % (demo choice, from memory).
@@ -44,6 +59,8 @@ export function rfSecondsPerWafer(scenario: DemoScenario, recipe: string): numbe
 export function scheduleWafers(scenario: DemoScenario, seed: number): Map<string, ScheduledWafer[]> {
 	const startMs = scenario.start.getTime();
 	const endMs = scenario.end.getTime();
+	const realVolume = scenario.realVolume;
+	const volumeFrom = realVolume ? realVolume.from.getTime() : null;
 	const down = new Map<string, [number, number][]>();
 	for (const m of scenario.maintenance) {
 		const w: [number, number] = [m.at.getTime(), m.at.getTime() + DOWNTIME_H[m.kind] * HOUR_MS];
@@ -57,11 +74,21 @@ export function scheduleWafers(scenario: DemoScenario, seed: number): Map<string
 		if (recipes.length === 0) continue;
 		const rng = stream(seed, `lots:${tool.code}`);
 		const meanGapMs = (25 / (chambers.length * WAFERS_PER_CHAMBER_DAY)) * DAY_MS;
+		const volumeGapMs = (25 / (chambers.length * (realVolume?.wafersPerHour ?? 0))) * HOUR_MS;
 		// Gaps between lots: Gamma(4) around the mean (steadier than Poisson arrivals, as WIP release is).
-		const gap = () =>
-			(meanGapMs / 4) *
+		// In the real-volume tail the same draws are scaled to its shorter mean gap, so the compressed
+		// weeks' lots are the same with or without the tail.
+		const gap = (t: number) =>
+			((volumeFrom !== null && t >= volumeFrom ? volumeGapMs : meanGapMs) / 4) *
 			-Math.log((1 - rng.uniform()) * (1 - rng.uniform()) * (1 - rng.uniform()) * (1 - rng.uniform()));
-		for (let t = startMs + rng.uniform() * meanGapMs; t < endMs; t += gap()) {
+		// The first lot of the tail does not wait for the long gap of the compressed weeks to run out.
+		const next = (t: number) => {
+			const g = gap(t);
+			return volumeFrom !== null && t < volumeFrom && t + g > volumeFrom
+				? volumeFrom + rng.uniform() * volumeGapMs
+				: t + g;
+		};
+		for (let t = startMs + rng.uniform() * meanGapMs; t < endMs; t = next(t)) {
 			const size = rng.uniform() < 0.85 ? 25 : rng.int(8, 24);
 			const recipe = recipes[rng.int(0, recipes.length - 1)];
 			lots.push({
@@ -79,7 +106,8 @@ export function scheduleWafers(scenario: DemoScenario, seed: number): Map<string
 	const freeAt = new Map<string, number>(scenario.chambers.map((c) => [c.code, startMs]));
 	lots.forEach((lot, i) => {
 		const lotId = `L${26000 + i}`;
-		const cycleMs = (rfSecondsPerWafer(scenario, lot.recipe) + OVERHEAD_S) * 1000;
+		const overheadS = volumeFrom !== null && lot.arrival >= volumeFrom ? OVERHEAD_S.realVolume : OVERHEAD_S.compressed;
+		const cycleMs = (rfSecondsPerWafer(scenario, lot.recipe) + overheadS) * 1000;
 		const able = scenario.chambers.filter((c) => c.toolCode === lot.tool && c.recipes.includes(lot.recipe));
 		for (let slot = 1; slot <= lot.size; slot++) {
 			const ready = lot.arrival + (slot - 1) * 40_000;

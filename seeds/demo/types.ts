@@ -16,6 +16,22 @@ export interface DemoScenario {
 	episodes: DemoEpisode[];
 	start: Date;
 	end: Date;
+	/**
+	 * The real-volume tail: from `from` to `end` every chamber runs at a real chamber's pace
+	 * (`wafersPerHour`) and is wet-cleaned by a real PM interval in RF-hours; null when the whole
+	 * window runs at the compressed, low-volume pace (the small variant the e2e suite seeds).
+	 */
+	realVolume: DemoRealVolume | null;
+	/** Each chamber's wet-clean interval (RF seconds of its PM counter) in the compressed weeks and at real volume. */
+	pmIntervals: Record<string, { compressedRfS: number; realVolumeRfS: number | null }>;
+}
+
+export interface DemoRealVolume {
+	from: Date;
+	/** Lot arrivals are planned for this many wafers per chamber and hour. */
+	wafersPerHour: number;
+	/** Range of the chambers' wet-clean intervals at real volume, RF-hours. */
+	cleanIntervalRfHours: readonly [number, number];
 }
 
 export interface DemoFeature {

@@ -17,7 +17,10 @@ let dataDir = '';
 
 export default async function setup(project: TestProject) {
 	dataDir = fs.mkdtempSync(path.join(os.tmpdir(), 'lockstep-e2e-'));
-	runTsx(['seeds/run.ts', '--quiet'], { LOCKSTEP_DATA_DIR: dataDir, NODE_ENV: 'production' });
+	// The demo's small variant (LOCKSTEP_DEMO_VOLUME_DAYS=0: every day at the compressed pace, ≈ 26k
+	// wafer-steps) keeps the suite within CI's time; its month is the full demo's first 27 days, and the
+	// episodes the tests read are the same (tests/unit/demo/volume.test.ts).
+	runTsx(['seeds/run.ts', '--quiet'], { LOCKSTEP_DATA_DIR: dataDir, NODE_ENV: 'production', LOCKSTEP_DEMO_VOLUME_DAYS: '0' });
 	for (const [role, username] of Object.entries(TEST_USERS)) createUser(dataDir, username, role as keyof typeof TEST_USERS, TEST_PASSWORD, `Test ${role}`);
 	// Every test request comes from 127.0.0.1: the per-address sign-in limit would soon lock the
 	// whole suite out (it is tested in tests/integration/auth.test.ts; the per-account one stays).

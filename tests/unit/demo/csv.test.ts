@@ -7,6 +7,7 @@ import { afterAll, describe, expect, it } from 'vitest';
 import {
 	buildScenario,
 	generateWaferSteps,
+	formatValue,
 	REQUIRED_COLUMNS,
 	writeWaferSummaryCsv,
 	writeWaferSummaryCsvFile
@@ -19,6 +20,23 @@ const tmp = mkdtempSync(join(tmpdir(), 'lockstep-demo-'));
 afterAll(() => rmSync(tmp, { recursive: true, force: true }));
 
 describe('demo wafer-summary CSV', () => {
+	it('formats a value exactly as String(Number(v.toPrecision(6))) would (ECMA-262 toPrecision)', () => {
+		const ref = (v: number) => String(Number(v.toPrecision(6)));
+		// Edges: decades, exact ties (the larger digits win), rounding into the next decade, signs, tiny and huge.
+		const edges = [1, 9.999995, 9.9999949, 10, 12.5, 99999.95, 99999.949, 100000, 123456.5, 999999.4, 999999.5, 0, 0.5, 1e-7, 2.5e7, 1e21];
+		for (const v of [...edges, ...edges.map((x) => -x)]) expect(formatValue(v), String(v)).toBe(ref(v));
+		// A seeded sweep over the demo's magnitudes (xorshift32, Marsaglia 2003): about 200,000 values.
+		let x = 2463534242;
+		const next = () => ((x ^= x << 13), (x ^= x >>> 17), (x ^= x << 5), (x >>> 0) / 4294967296);
+		let differ = 0;
+		for (let i = 0; i < 200_000; i++) {
+			const v = (next() - 0.2) * 10 ** (next() * 9 - 2);
+			if (formatValue(v) !== ref(v)) differ++;
+		}
+		expect(differ).toBe(0);
+		expect(() => formatValue(Number.NaN)).toThrow(RangeError);
+	});
+
 	it('starts with the required columns, then one column per feature of the step', () => {
 		const text = writeWaferSummaryCsv(day, scenario, 'OXV-22', 'main_etch');
 		const header = text.slice(0, text.indexOf('\n')).split(',');
@@ -100,7 +118,7 @@ describe('demo wafer-summary CSV', () => {
 		const end = '2026-06-01T06:00:00Z';
 		const log = execFileSync(
 			process.execPath,
-			['--import', 'tsx', 'seeds/demo/export.ts', out, '--days', '20', '--end', end],
+			['--import', 'tsx', 'seeds/demo/export.ts', out, '--days', '20', '--end', end, '--volume-days', '0'],
 			{
 				encoding: 'utf8'
 			}
@@ -112,7 +130,7 @@ describe('demo wafer-summary CSV', () => {
 		const csvs = files.filter((f) => f.endsWith('.csv'));
 		expect(csvs.every((f) => /^\d{4}-\d\d-\d\d_[A-Z]+-\d+_[a-z_]+\.csv$/.test(f))).toBe(true);
 		expect(files.some((f) => f.endsWith('.part'))).toBe(false);
-		const sc = buildScenario({ days: 20, end: new Date(end) });
+		const sc = buildScenario({ days: 20, end: new Date(end), realVolumeDays: 0 });
 		const expected = [...generateWaferSteps(sc)];
 		let lines = 0;
 		for (const f of csvs) {

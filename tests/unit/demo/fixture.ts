@@ -1,4 +1,8 @@
-/** The default demo, generated once per test file, with helpers to slice it. */
+/**
+ * The demo's small variant (no real-volume tail: its month is the full demo's first 27 days plus 3
+ * more compressed ones, the data the e2e suite seeds), generated once per test file, with helpers to
+ * slice it. The real-volume tail has its own test (volume.test.ts), which streams it.
+ */
 import {
 	buildScenario,
 	generateWaferSteps,
@@ -10,7 +14,7 @@ let cached: { scenario: DemoScenario; rows: DemoWaferStep[] } | null = null;
 
 export function demo(): { scenario: DemoScenario; rows: DemoWaferStep[] } {
 	if (!cached) {
-		const scenario = buildScenario();
+		const scenario = buildScenario({ realVolumeDays: 0 });
 		cached = { scenario, rows: [...generateWaferSteps(scenario)] };
 	}
 	return cached;

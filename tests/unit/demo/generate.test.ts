@@ -22,9 +22,9 @@ describe('demo wafer-steps', () => {
 
 	it('are byte-identical for the same seed and differ for another', () => {
 		const a = digest(rows);
-		const b = digest(generateWaferSteps(buildScenario()));
+		const b = digest(generateWaferSteps(buildScenario({ realVolumeDays: 0 })));
 		expect(b).toEqual(a);
-		const sc = buildScenario();
+		const sc = buildScenario({ realVolumeDays: 0 });
 		const c = digest(generateWaferSteps(sc, { seed: sc.seed + 1 }));
 		expect(c.hash).not.toBe(a.hash);
 	});

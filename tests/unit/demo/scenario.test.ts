@@ -33,6 +33,8 @@ describe('demo scenario', () => {
 		expect(() => buildScenario({ seed: 1.5 })).toThrow(RangeError);
 		expect(() => buildScenario({ days: 5 })).toThrow(/days/);
 		expect(() => buildScenario({ end: new Date('not a date') })).toThrow(/end/);
+		expect(() => buildScenario({ realVolumeDays: 11 })).toThrow(/realVolumeDays/);
+		expect(() => buildScenario({ realVolumeDays: 1.5 })).toThrow(/realVolumeDays/);
 	});
 
 	it('has ≥ 3 areas, ≥ 24 chambers with fab-wide unique codes, each on a known tool', () => {
@@ -80,7 +82,8 @@ describe('demo scenario', () => {
 	});
 
 	it('ends every complete clean cycle of a chamber at about the same wafer count (a PM counter, not the calendar)', () => {
-		const { rows } = demo();
+		// The compressed weeks (the small variant's whole month); the real-volume tail: volume.test.ts.
+		const { rows, scenario: sc } = demo();
 		const episodic = new Set(sc.episodes.map((e) => e.chamberCode));
 		let cycles = 0;
 		for (const c of sc.chambers.filter((c) => !episodic.has(c.code))) {
