@@ -41,12 +41,16 @@ export {
 export { modifiedZScores, MODIFIED_Z_THRESHOLD, type ModifiedZ } from './robust';
 export {
 	compareChambers,
+	fitFleetReference,
+	FLEET_DEFAULTS,
+	type FleetReference,
 	type ChamberWafers,
 	type FleetOptions,
 	type FleetComparison,
 	type ChamberMatch,
 	type SeparatingFeature
 } from './fleet';
+export { benjaminiHochberg, simesCombined, type FdrResult } from './fdr';
 export { referenceStats, type InControl } from './reference';
 export { ewma, type EwmaChart, type EwmaOptions } from './ewma';
 export { sampleAutocorrelation, bartlettStandardErrors } from './autocorrelation';
