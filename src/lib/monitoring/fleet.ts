@@ -37,6 +37,9 @@ export interface FleetReference {
 	goldenWafers: number;
 }
 
+/** From this many chambers on, the between-chamber spread is estimated robustly (MAD of golden means). */
+export const ROBUST_BETWEEN_MIN = 5;
+
 /** Lockstep's defaults, each documented where it is used. */
 export const FLEET_DEFAULTS = { window: 25, alpha: 0.01, featureFdr: 0.05, minChambers: 3, minGolden: 10, topFeatures: 8 } as const;
 
@@ -120,9 +123,13 @@ const wrap = (chamberId: string, e: unknown): never => {
  *   (max(10⁻⁶·|mean|, 10⁻⁹))² as the baseline's scaling floor (a constant channel then has a tiny but
  *   finite noise, not 0);
  * - between: τ²_j = max(0, s²(ḡ_·j) − mean_c(σ²_w,j / n_c)), s² the sample variance of the chamber
- *   means — the ANOVA (method-of-moments) estimator, exact in expectation for equal n_c.
+ *   means — the ANOVA (method-of-moments) estimator, exact in expectation for equal n_c. From 5
+ *   chambers on, s² is replaced by (1.4826 · MAD of the chamber means)², so that a chamber already
+ *   apart at qualification (a part swap before the golden run) does not inflate everyone's yardstick
+ *   and hide itself; with 3–4 chambers a robust spread is too unstable to use.
  * Source: Searle, Casella & McCulloch (1992) "Variance Components", Wiley, §3.5 (one-way
- * classification, ANOVA estimation); the pooled within variance as in any one-way ANOVA.
+ * classification, ANOVA estimation); the pooled within variance as in any one-way ANOVA; MAD × 1.4826
+ * (Rousseeuw & Croux 1993, J. Amer. Statist. Assoc. 88:1273).
  *
  * @param chambers chambers with their golden wafers (those with fewer than `minGolden` are left out)
  * @param featureNames feature names, in row order
@@ -172,6 +179,15 @@ export function fitFleetReference(
 		withinVar[j] = Math.max(ss[j] / df, floor * floor);
 		let s2 = 0;
 		for (const m of means) s2 += (m[j] - grand) ** 2 / (C - 1);
+		if (C >= ROBUST_BETWEEN_MIN) {
+			// One chamber apart at qualification must not widen everyone's yardstick: the spread of the
+			// golden means by the MAD (× 1.4826, consistent for a normal σ) instead of the sample variance.
+			const col = means.map((mm) => mm[j]).sort((a, b) => a - b);
+			const med = C % 2 ? col[C >> 1] : (col[C / 2 - 1] + col[C / 2]) / 2;
+			const dev = col.map((v) => Math.abs(v - med)).sort((a, b) => a - b);
+			const mad = C % 2 ? dev[C >> 1] : (dev[C / 2 - 1] + dev[C / 2]) / 2;
+			s2 = (1.4826 * mad) ** 2;
+		}
 		let noise = 0;
 		for (const c of used) noise += withinVar[j] / c.golden.length / C;
 		betweenVar[j] = Math.max(0, s2 - noise);
