@@ -103,3 +103,47 @@ describe('fleet matching on a new installation', () => {
 		expect(Number((await env.k('baselines').where({ scope: 'fleet', status: 'retired' }).count({ n: '*' }).first())!.n)).toBe(1);
 	});
 });
+
+describe('GET/POST /api/matching (handlers called directly; access is the route policy, tested by the route matrix)', () => {
+	const call = async (method: 'GET' | 'POST', query: string, body?: string) => {
+		const mod = await import('../../../src/routes/api/matching/+server.ts');
+		const url = new URL(`http://localhost/api/matching${query}`);
+		const request = new Request(url, { method, ...(body !== undefined ? { body } : {}) });
+		// eslint-disable-next-line @typescript-eslint/no-explicit-any
+		const res: Response = await (mod[method] as any)({ url, request, locals: { user: { id: engineer, role: 'engineer' }, apiToken: null } });
+		return { status: res.status, body: await res.json() };
+	};
+	it('answers the latest run with the contract fields', async () => {
+		const r = await call('GET', '?recipe=RCP&step=main');
+		expect(r.status).toBe(200);
+		expect(r.body.ranAt).toMatch(/^2026-11-03T/);
+		const ch3 = r.body.chambers.find((c: { chamber: string }) => c.chamber === 'CH3');
+		// the run after the rebuild still sees CH3's offset window
+		expect(ch3).toMatchObject({ flagged: true });
+		expect(ch3.separating.map((f: { feature: string }) => f.feature).sort()).toEqual(['f4', 'f5', 'f6']);
+		expect(r.body.chambers.filter((c: { flagged: boolean }) => c.flagged)).toHaveLength(1);
+		for (const c of r.body.chambers) expect(Object.keys(c)).toEqual(expect.arrayContaining(['chamber', 'distance', 'z', 'flagged', 'separating']));
+		expect(r.body.fleetModel.stale).toBe(false);
+	});
+	it('runs now on POST and says why a step is skipped', async () => {
+		const r = await call('POST', '', JSON.stringify({ recipe: 'RCP', step: 'main' }));
+		expect(r.status).toBe(200);
+		expect(r.body.runs).toHaveLength(1);
+		expect(r.body.runs[0]).toMatchObject({ recipe: 'RCP', step: 'main' });
+		// the wall clock is far past the generated wafers: no chamber ran in the last 14 days
+		expect(r.body.runs[0].skipped).toMatch(/too few chambers: 0 ran this step/);
+		const g = await call('GET', '?recipe=RCP&step=main');
+		expect(g.body.latestAttempt).toMatchObject({ status: 'skipped', trigger: 'api' });
+		expect(g.body.ranAt).not.toBeNull(); // the latest completed run stays readable
+	});
+	it('gives clear 400s', async () => {
+		expect((await call('GET', '')).body.error).toMatch(/recipe=CODE/);
+		expect((await call('GET', '?recipe=NOPE')).body.error).toMatch(/No recipe "NOPE"/);
+		expect((await call('GET', '?recipe=RCP&step=etch')).body.error).toMatch(/no step "etch".*main/);
+		expect((await call('GET', '?recipe=RCP&foo=1')).status).toBe(400);
+		expect((await call('POST', '', '{bad')).body.error).toMatch(/not JSON/);
+		expect((await call('POST', '', '[]')).body.error).toMatch(/JSON object/);
+		expect((await call('POST', '', JSON.stringify({ step: 'main' }))).body.error).toMatch(/Name the recipe/);
+		expect((await call('POST', '', JSON.stringify({ recipe: 7 }))).body).toMatchObject({ field: 'recipe' });
+	});
+});
