@@ -34,6 +34,9 @@ export { scoreWafer, scoreBatch, rowFromRecord, type WaferScore, type BatchScore
 export {
 	contributions,
 	rankContributions,
+	contributionLimits,
+	t2ContributionsUninformative,
+	type ContributionLimits,
 	type ContributionKind,
 	type Contributions,
 	type RankedContribution
@@ -72,16 +75,28 @@ export {
 	type ActinometryPlan,
 	type ActinometryRatioSpec
 } from './actinometry';
-export { EMISSION_LINES, identifyLines, identifyFeature, type EmissionLine } from './emission-lines';
+export {
+	EMISSION_LINES,
+	KEY_EMISSION_LINES,
+	DEFAULT_MATCH_NM,
+	MAX_MATCH_NM,
+	channelGrid,
+	identifyLines,
+	identifyFeature,
+	type ChannelGrid,
+	type EmissionLine
+} from './emission-lines';
 export {
 	leakSignature,
 	waferLeakSignature,
 	leakGasOf,
+	fleetLeakSignature,
 	goldenZ,
 	LEAK_ELEMENTS,
 	LEAK_RISE_Z,
 	LEAK_TOP,
 	LEAK_Q_SHARE,
+	LEAK_MIN_LINES,
 	type LeakGas,
 	type LeakEvidence,
 	type LeakContributor,

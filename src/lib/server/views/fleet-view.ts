@@ -7,7 +7,7 @@
  * fleet-matching.ts (hourly job, "run now", or POST /api/matching).
  */
 import type { Knex } from 'knex';
-import { FLEET_DEFAULTS, parseChannelWavelength, scoreBatch, type SeparatingFeature } from '../../monitoring/index.ts';
+import { channelGrid, FLEET_DEFAULTS, parseChannelWavelength, scoreBatch, type SeparatingFeature } from '../../monitoring/index.ts';
 import { getActiveBaseline, getActiveFleetBaseline } from '../baselines.ts';
 import { db } from '../db.ts';
 import { decodeValues } from '../feature-values.ts';
@@ -54,6 +54,31 @@ export async function fleetSteps(k: Knex = db()): Promise<FleetStep[]> {
 		out.push({ id: s.id, recipeCode: s.code, stepName: s.name, fleetModelId: model.fleetBaselineId, fleetModelVersion: model.version, model, lastRunAt: at, lastAttempt: attempt, flagged });
 	}
 	return out;
+}
+
+/** Whether fleet matching has run for a set of steps, for the landing page (never reassure wrongly). */
+export interface FleetRunSummary {
+	/** recipe steps considered */
+	steps: number;
+	/** steps with at least one completed run */
+	matched: number;
+	/** the latest completed run over those steps, or null: never run */
+	lastRunAt: number | null;
+	/** steps whose latest attempt was skipped, with the reason */
+	skipped: { recipeStepId: number; reason: string }[];
+}
+
+export async function fleetRunSummary(stepIds: number[] | null, k: Knex = db()): Promise<FleetRunSummary> {
+	const ids = stepIds ?? ((await k('recipe_steps').pluck('id')) as number[]);
+	if (!ids.length) return { steps: 0, matched: 0, lastRunAt: null, skipped: [] };
+	const ran = await k('fleet_matches').whereIn('recipe_step_id', ids).groupBy('recipe_step_id').select('recipe_step_id', k.raw('max(run_at) as at'));
+	const skipped: FleetRunSummary['skipped'] = [];
+	for (const id of ids) {
+		const a = await latestAttempt(id, k);
+		if (a?.status === 'skipped') skipped.push({ recipeStepId: id, reason: a.reason ?? 'skipped' });
+	}
+	const last = ran.reduce((m: number | null, r) => Math.max(m ?? 0, Number(r.at)), null);
+	return { steps: ids.length, matched: ran.length, lastRunAt: last, skipped };
 }
 
 export interface MatchRow {
@@ -124,6 +149,14 @@ export async function latestRun(recipeStepId: number, k: Knex = db()): Promise<{
 			separating: readSeparating(r.separating_json)
 		}))
 	};
+}
+
+/** The OES channel grid of a step's current feature set, to name channels after lines (emission-lines.ts). */
+export async function stepChannelGrid(recipeStepId: number, k: Knex = db()): Promise<number[]> {
+	const step = await k('recipe_steps').where({ id: recipeStepId }).first('feature_set_version');
+	if (!step) return [];
+	const rows = await k('features').where({ recipe_step_id: recipeStepId, set_version: step.feature_set_version, kind: 'oes' }).select('name', 'wavelength_nm');
+	return channelGrid(rows.map((r) => r.wavelength_nm ?? r.name));
 }
 
 /** Lines an etch engineer reads first: radicals, actinometer, and the leak and water tracers. */

@@ -6,7 +6,8 @@
 import type { Knex } from 'knex';
 import { db } from '../db.ts';
 import type { FleetRunResult } from '../fleet-matching.ts';
-import { fleetSteps, latestRun } from './fleet-view.ts';
+import { identifyFeature } from '../../monitoring/index.ts';
+import { fleetSteps, latestRun, stepChannelGrid } from './fleet-view.ts';
 
 export class MatchingRequestError extends Error {}
 
@@ -42,6 +43,11 @@ export async function matchingAnswer(s: StepRef, k: Knex = db()) {
 	const info = (await fleetSteps(k)).find((x) => x.id === s.id)!;
 	const run = await latestRun(s.id, k);
 	const attempt = info.lastAttempt;
+	const grid = await stepChannelGrid(s.id, k);
+	const lineOf = (f: string) => {
+		const l = identifyFeature(f, grid)[0];
+		return l ? `${l.species} ${l.wavelengthNm}` : null;
+	};
 	const why =
 		run.runAt === null
 			? attempt?.status === 'skipped'
@@ -79,7 +85,7 @@ export async function matchingAnswer(s: StepRef, k: Knex = db()) {
 			windowFrom: iso(r.windowFrom),
 			windowTo: iso(r.windowTo),
 			// only the features named under false-discovery control
-			separating: r.separating.filter((f) => f.flagged).map((f) => ({ feature: f.feature, offsetSd: f.offsetSd, z: f.z, qValue: f.qValue }))
+			separating: r.separating.filter((f) => f.flagged).map((f) => ({ feature: f.feature, line: lineOf(f.feature), offsetSd: f.offsetSd, z: f.z, qValue: f.qValue }))
 		}))
 	};
 }
