@@ -86,7 +86,7 @@ export function contributions(model: BaselineModel, x: Row, kind: ContributionKi
 		if (kind === 'rbc') {
 			const m = 1 - leverage;
 			q[f] = m > 1e-12 ? (e * e) / m : 0;
-			t2![f] = djj > 0 ? (dz * dz) / djj : 0;
+			if (t2) t2[f] = djj > 0 ? (dz * dz) / djj : 0;
 		} else {
 			q[f] = e * e;
 			if (t2) t2[f] = dHalfZ * dHalfZ;
