@@ -38,6 +38,8 @@ export async function up(knex: Knex): Promise<void> {
 		t.integer('run_id').references('id').inTable('fleet_runs');
 		t.double('p_value');
 		t.double('threshold');
+		// the chamber's median statistic over its features (its broadband shift; the leak rule reads above it)
+		t.double('median_z');
 	});
 }
 
@@ -46,6 +48,7 @@ export async function down(knex: Knex): Promise<void> {
 		t.dropColumn('run_id');
 		t.dropColumn('p_value');
 		t.dropColumn('threshold');
+		t.dropColumn('median_z');
 	});
 	await knex.schema.dropTableIfExists('fleet_references');
 	await knex.schema.dropTableIfExists('fleet_runs');

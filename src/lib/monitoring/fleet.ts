@@ -13,7 +13,7 @@ import { DEFAULT_SCALE_FLOOR, assertFiniteRow, type Row } from './scaling';
 /** One chamber's wafers for a recipe step. */
 export interface ChamberWafers {
 	chamberId: string;
-	/** Golden wafers of its approved baseline (used when no fleet reference is given). */
+	/** Golden wafers of its approved baseline, in processing order (used when no fleet reference is given). */
 	golden: readonly Row[];
 	/** Recent wafers, oldest first; the last `window` of them are compared with the fleet. */
 	recent: readonly Row[];
@@ -30,6 +30,11 @@ export interface FleetReference {
 	withinVar: Float64Array;
 	/** Between-chamber variance τ² of each feature (method of moments, ≥ 0). */
 	betweenVar: Float64Array;
+	/**
+	 * Variance of consecutive 5-wafer block means within a chamber beyond the wafer noise (lot-to-lot
+	 * and slow within-chamber variation at qualification; ≥ 0). Absent in references stored before.
+	 */
+	blockVar?: Float64Array;
 	/** Degrees of freedom of σ²_w: Σ (n_c − 1). */
 	withinDf: number;
 	/** Chambers and golden wafers the reference was built from. */
@@ -39,6 +44,8 @@ export interface FleetReference {
 
 /** From this many chambers on, the between-chamber spread is estimated robustly (MAD of golden means). */
 export const ROBUST_BETWEEN_MIN = 5;
+/** Consecutive golden wafers per block for the within-chamber block variance. */
+export const FLEET_BLOCK = 5;
 
 /** Lockstep's defaults, each documented where it is used. */
 export const FLEET_DEFAULTS = { window: 25, alpha: 0.01, featureFdr: 0.05, minChambers: 3, minGolden: 10, topFeatures: 8 } as const;
@@ -89,6 +96,8 @@ export interface ChamberMatch {
 	 * exactly when z ≥ the run's threshold Φ⁻¹(1 − α/2) (2.576 at α = 1 %).
 	 */
 	z: number;
+	/** Median t over all the chamber's features: its broadband shift (the leak rule reads lines above it). */
+	medianZ: number;
 	/** Simes' combined p-value over the features, and the fleet-adjusted one (p̃). */
 	pValue: number;
 	adjustedP: number;
@@ -127,9 +136,13 @@ const wrap = (chamberId: string, e: unknown): never => {
  *   chambers on, s² is replaced by (1.4826 · MAD of the chamber means)², so that a chamber already
  *   apart at qualification (a part swap before the golden run) does not inflate everyone's yardstick
  *   and hide itself; with 3–4 chambers a robust spread is too unstable to use.
+ * - blocks: σ²_b,j = max(0, (MS_between blocks − MS_within blocks) / 5) over consecutive blocks of 5
+ *   golden wafers within each chamber (in the order given: processing order), pooled over chambers —
+ *   the nested-ANOVA estimator of the lot-to-lot and slow variation a window mean carries beyond
+ *   σ²_w/m (0 for independent wafers, up to noise).
  * Source: Searle, Casella & McCulloch (1992) "Variance Components", Wiley, §3.5 (one-way
- * classification, ANOVA estimation); the pooled within variance as in any one-way ANOVA; MAD × 1.4826
- * (Rousseeuw & Croux 1993, J. Amer. Statist. Assoc. 88:1273).
+ * classification, ANOVA estimation) and §4 (nested classifications); the pooled within variance as in
+ * any one-way ANOVA; MAD × 1.4826 (Rousseeuw & Croux 1993, J. Amer. Statist. Assoc. 88:1273).
  *
  * @param chambers chambers with their golden wafers (those with fewer than `minGolden` are left out)
  * @param featureNames feature names, in row order
@@ -169,9 +182,35 @@ export function fitFleetReference(
 		df += c.golden.length - 1;
 		wafers += c.golden.length;
 	}
+	// Consecutive blocks of FLEET_BLOCK golden wafers within each chamber (a nested layout): the
+	// mean square between block means, pooled over chambers, and within blocks.
+	const ssBlocks = new Float64Array(p);
+	const ssInBlocks = new Float64Array(p);
+	let dfBlocks = 0;
+	let dfInBlocks = 0;
+	used.forEach((c) => {
+		const nb = Math.floor(c.golden.length / FLEET_BLOCK);
+		if (nb < 2) return;
+		const bm = new Float64Array(p);
+		const cm = new Float64Array(p);
+		const blockMeans: Float64Array[] = [];
+		for (let b = 0; b < nb; b++) {
+			bm.fill(0);
+			for (let i = b * FLEET_BLOCK; i < (b + 1) * FLEET_BLOCK; i++) for (let j = 0; j < p; j++) bm[j] += c.golden[i][j] / FLEET_BLOCK;
+			for (let i = b * FLEET_BLOCK; i < (b + 1) * FLEET_BLOCK; i++) for (let j = 0; j < p; j++) ssInBlocks[j] += (c.golden[i][j] - bm[j]) ** 2;
+			blockMeans.push(Float64Array.from(bm));
+			for (let j = 0; j < p; j++) cm[j] += bm[j] / nb;
+		}
+		for (const m of blockMeans) for (let j = 0; j < p; j++) ssBlocks[j] += FLEET_BLOCK * (m[j] - cm[j]) ** 2;
+		dfBlocks += nb - 1;
+		dfInBlocks += nb * (FLEET_BLOCK - 1);
+	});
 	const C = used.length;
 	const withinVar = new Float64Array(p);
 	const betweenVar = new Float64Array(p);
+	const blockVar = new Float64Array(p);
+	if (dfBlocks > 0 && dfInBlocks > 0)
+		for (let j = 0; j < p; j++) blockVar[j] = Math.max(0, (ssBlocks[j] / dfBlocks - ssInBlocks[j] / dfInBlocks) / FLEET_BLOCK);
 	for (let j = 0; j < p; j++) {
 		let grand = 0;
 		for (const m of means) grand += m[j] / C;
@@ -192,7 +231,7 @@ export function fitFleetReference(
 		for (const c of used) noise += withinVar[j] / c.golden.length / C;
 		betweenVar[j] = Math.max(0, s2 - noise);
 	}
-	return { featureNames: [...featureNames], withinVar, betweenVar, withinDf: df, chambers: C, goldenWafers: wafers };
+	return { featureNames: [...featureNames], withinVar, betweenVar, blockVar, withinDf: df, chambers: C, goldenWafers: wafers };
 }
 
 /**
@@ -201,9 +240,12 @@ export function fitFleetReference(
  * Method, per feature j, for chamber c with m_c recent wafers (mean x̄_cj) against the set R of the
  * other chambers still in the reference (r = |R|):
  *   d_cj = x̄_cj − (1/r) Σ_{c'∈R} x̄_c'j,
- *   SE²(d_cj) = τ²_j (1 + 1/r) + σ²_w,j (1/m_c + (1/r²) Σ_{c'∈R} 1/m_c'),
+ *   SE²(d_cj) = (τ²_j + σ²_b,j)(1 + 1/r) + σ²_w,j (1/m_c + (1/r²) Σ_{c'∈R} 1/m_c'),
  *   t_cj = d_cj / SE(d_cj), p_cj = 2 P(T_ν > |t_cj|), ν = Σ(n_c − 1)
- * (σ²_w, τ², ν from {@link fitFleetReference}; with τ² = 0 and normal wafers t_cj is exactly Student t).
+ * (σ²_w, σ²_b, ν from {@link fitFleetReference}; with τ² = σ²_b = 0 and independent normal wafers
+ * t_cj is exactly Student t). τ²_j is the larger of the qualification spread and, from 5 chambers on,
+ * the fleet's spread now: (1.4826 · MAD of the window means)² − mean(σ²_w/m_c) − σ²_b — so a chamber
+ * is flagged for standing out from what its fleet shows now, not for a fleet-wide phase.
  * The chamber's evidence is Simes' combination p_c = min_i p_c(i)·p/i over its p features (valid
  * under positive dependence, which correlated OES channels have; Simes 1986; Sarkar 1998).
  * Step-down over chambers (Holm 1979, Scand. J. Statist. 6:65, with the outlier re-referencing of
@@ -263,6 +305,29 @@ export function compareChambers(chambers: readonly ChamberWafers[], options: Fle
 		return mu;
 	});
 
+	// The chamber-to-chamber spread to allow: the larger of the fleet's spread at qualification (τ²)
+	// and its spread now — robustly, from 5 chambers on — so that a fleet-wide phase (every window at
+	// another stage of clouding, every chamber at another point after its wet clean) does not flag
+	// every chamber, while one chamber far off does not widen the yardstick (MAD).
+	const tau = Float64Array.from(ref.betweenVar);
+	const block = ref.blockVar ?? new Float64Array(p);
+	if (C >= ROBUST_BETWEEN_MIN) {
+		const col = new Float64Array(C);
+		const dev = new Float64Array(C);
+		let noise = 0;
+		for (let c = 0; c < C; c++) noise += 1 / m[c] / C;
+		for (let j = 0; j < p; j++) {
+			for (let c = 0; c < C; c++) col[c] = means[c][j];
+			col.sort();
+			const med = C % 2 ? col[C >> 1] : (col[C / 2 - 1] + col[C / 2]) / 2;
+			for (let c = 0; c < C; c++) dev[c] = Math.abs(col[c] - med);
+			dev.sort();
+			const mad = C % 2 ? dev[C >> 1] : (dev[C / 2 - 1] + dev[C / 2]) / 2;
+			const now = (1.4826 * mad) ** 2 - ref.withinVar[j] * noise - block[j];
+			if (now > tau[j]) tau[j] = now;
+		}
+	}
+
 	// Sums over the reference set, kept up to date as chambers leave it.
 	const inRef = new Array<boolean>(C).fill(true);
 	const sumMean = new Float64Array(p);
@@ -280,7 +345,7 @@ export function compareChambers(chambers: readonly ChamberWafers[], options: Fle
 		for (let j = 0; j < p; j++) {
 			const refMean = (sumMean[j] - (inRef[c] ? means[c][j] : 0)) / r;
 			const d = means[c][j] - refMean;
-			const se = Math.sqrt(ref.betweenVar[j] * (1 + 1 / r) + ref.withinVar[j] * (1 / m[c] + invM / (r * r)));
+			const se = Math.sqrt((tau[j] + block[j]) * (1 + 1 / r) + ref.withinVar[j] * (1 / m[c] + invM / (r * r)));
 			t[j] = d / se;
 			// the lower tail, computed directly: 1 − cdf(|t|) would lose every digit below 1e-16
 			pv[j] = Math.min(1, 2 * tCdf(-Math.abs(t[j]), ref.withinDf));
@@ -318,11 +383,15 @@ export function compareChambers(chambers: readonly ChamberWafers[], options: Fle
 		const list = flag ? (named.length ? named : order.slice(0, 1)) : order.slice(0, top);
 		let distance = 0;
 		for (let j = 0; j < p; j++) distance = Math.max(distance, Math.abs(s.off[j]));
+		// with few features their median would be the lines themselves, not the spectrum: 0 below 10
+		const sortedT = Float64Array.from(s.t).sort();
+		const medianZ = p < 10 ? 0 : p % 2 ? sortedT[p >> 1] : (sortedT[p / 2 - 1] + sortedT[p / 2]) / 2;
 		return {
 			chamberId: ch.chamberId,
 			wafers: m[c],
 			distance,
 			z: zOf(adjusted),
+			medianZ,
 			pValue: pc,
 			adjustedP: adjusted,
 			flagged: flag !== undefined,

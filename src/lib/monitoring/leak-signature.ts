@@ -28,6 +28,8 @@ export const LEAK_TOP = 5;
 export const LEAK_RISE_Z = 3;
 /** Risen leak lines that carry at least this share of Q among the top contributors lead it. */
 export const LEAK_Q_SHARE = 0.5;
+/** Fewest OES channels for their median to stand for the broadband shift (else 0 is used). */
+export const BROADBAND_MIN_CHANNELS = 10;
 /** Distinct lines of one gas needed, unless an N₂ band comes with oxygen risen. */
 export const LEAK_MIN_LINES = 2;
 
@@ -78,7 +80,15 @@ export function leakGasOf(feature: string, grid?: ChannelGrid): LeakGas | null {
 	return l ? (LEAK_ELEMENTS[l.element] ?? null) : null;
 }
 
-const evidenceOf = (c: LeakContributor) => c.significant === true && typeof c.z === 'number' && c.z > LEAK_RISE_Z;
+const evidenceOf = (c: LeakContributor, base: number) => c.significant === true && typeof c.z === 'number' && c.z - base > LEAK_RISE_Z;
+
+/** Median of finite values (0 for none): the broadband shift a leak line must stand out from. */
+function medianOf(values: Iterable<number>): number {
+	const s = Float64Array.from([...values].filter(Number.isFinite)).sort();
+	if (!s.length) return 0;
+	const m = s.length >> 1;
+	return s.length % 2 ? s[m] : (s[m - 1] + s[m]) / 2;
+}
 
 /**
  * Decide whether contributors form a leak-like signature.
@@ -89,7 +99,9 @@ const evidenceOf = (c: LeakContributor) => c.significant === true && typeof c.z 
  *    a direction off the model plane (Q); a T²-led alarm means a known knob moved too far.
  * 2. A contributor is evidence only when it is significant (Q: its reconstruction-based contribution
  *    beyond its control limit, Alcala & Qin 2011; fleet: named under the Benjamini–Hochberg control
- *    of monitoring/fleet.ts) AND has risen more than 3 σ (a leak adds light, it never removes it).
+ *    of monitoring/fleet.ts) AND has risen more than 3 σ above the broadband shift `baselineZ` (the
+ *    median z of every channel: a leak adds light at its own lines, it never removes it, and a
+ *    whole spectrum rising together — a gain change, a cleaned window — is not a leak).
  * 3. A channel is a leak line only when the line it is named after (nearest, within its cell of the
  *    channel grid — emission-lines.ts) is a nitrogen feature (N₂ second positive, N₂⁺ first
  *    negative, N I, CN violet — air) or a He I line (backside helium).
@@ -102,15 +114,17 @@ const evidenceOf = (c: LeakContributor) => c.significant === true && typeof c.z 
  * @param evidence 'Q' | 'T²' | 'fleet'
  * @param contributors Q: ranked largest first (the first five are read); fleet: the named features
  * @param grid the step's channel grid; without it, channels are named within 0.5 nm of a line
+ * @param baselineZ the broadband shift in the same units as z (default 0)
  * @returns the gases and channels, or null when the signature is not leak-like
  * @throws nothing
  * @example leakSignature('Q', [{ feature: 'oes_337.1', share: 0.5, z: 9, significant: true }, { feature: 'oes_357.7', share: 0.3, z: 7, significant: true }])
  * // → { gases: ['air'], channels: ['oes_337.1', 'oes_357.7'], supporting: [], evidence: 'Q' }
  */
-export function leakSignature(evidence: LeakEvidence, contributors: readonly LeakContributor[], grid?: ChannelGrid): LeakSignature | null {
+export function leakSignature(evidence: LeakEvidence, contributors: readonly LeakContributor[], grid?: ChannelGrid, baselineZ = 0): LeakSignature | null {
 	if (evidence === 'T²') return null;
 	const read = evidence === 'Q' ? contributors.slice(0, LEAK_TOP) : contributors;
-	const strong = read.filter(evidenceOf).map((c) => ({ c, line: lineOf(c.feature, grid) }));
+	const base = Number.isFinite(baselineZ) ? baselineZ : 0;
+	const strong = read.filter((c) => evidenceOf(c, base)).map((c) => ({ c, line: lineOf(c.feature, grid) }));
 	const hits = strong.filter((h) => h.line && LEAK_ELEMENTS[h.line.element]);
 	const oxygen = strong.filter((h) => h.line?.element === 'O');
 	const gases: LeakGas[] = [];
@@ -177,10 +191,16 @@ export function waferLeakSignature(model: BaselineModel, x: Row): LeakSignature 
 	const index = new Map(model.featureNames.map((f, j) => [f, j]));
 	const limits = contributionLimits(model).q;
 	const ranked = rankContributions(contributions(model, x, 'rbc').q, LEAK_TOP);
+	const grid = channelGrid(model.featureNames);
+	// the broadband shift: the median golden z of the OES channels (named by a wavelength), when
+	// there are enough of them for a median to describe the spectrum rather than the lines themselves
+	const oes = model.featureNames.flatMap((f, j) => (channelGrid([f]).length ? [z[j]] : []));
+	const broadband = oes.length >= BROADBAND_MIN_CHANNELS ? medianOf(oes) : 0;
 	return leakSignature(
 		'Q',
 		ranked.map((r) => ({ feature: r.feature, share: r.share, z: z[index.get(r.feature)!], significant: r.value > limits[r.feature] })),
-		channelGrid(model.featureNames)
+		grid,
+		broadband
 	);
 }
 
@@ -191,16 +211,20 @@ export function waferLeakSignature(model: BaselineModel, x: Row): LeakSignature 
  *
  * @param separating the stored separating features of a chamber
  * @param grid the step's channel grid (optional)
+ * @param baselineZ the chamber's median statistic over all its features (its broadband shift; the
+ *   `medianZ` of compareChambers); default 0
  * @returns the signature, or null
  * @example fleetLeakSignature([{ feature: 'oes_337.1', z: 8, flagged: true }, { feature: 'oes_380.5', z: 6, flagged: true }])?.gases // → ['air']
  */
 export function fleetLeakSignature(
 	separating: readonly { feature: string; z?: number | null; modifiedZ?: number | null; flagged?: boolean }[],
-	grid?: ChannelGrid
+	grid?: ChannelGrid,
+	baselineZ = 0
 ): LeakSignature | null {
 	return leakSignature(
 		'fleet',
 		separating.filter((f) => f.flagged).map((f) => ({ feature: f.feature, z: f.z ?? f.modifiedZ ?? null, significant: true })),
-		grid
+		grid,
+		baselineZ
 	);
 }

@@ -148,7 +148,12 @@ export async function buildFleetModel(recipeStepId: number, userId: string | nul
 			source_baselines_json: JSON.stringify(baselines.map((b) => b.id)),
 			chambers: reference.chambers,
 			golden_wafers: reference.goldenWafers,
-			reference_json: JSON.stringify({ ...reference, withinVar: Array.from(reference.withinVar), betweenVar: Array.from(reference.betweenVar) }),
+			reference_json: JSON.stringify({
+				...reference,
+				withinVar: Array.from(reference.withinVar),
+				betweenVar: Array.from(reference.betweenVar),
+				blockVar: Array.from(reference.blockVar ?? [])
+			}),
 			built_at: t
 		});
 	});
@@ -159,7 +164,12 @@ async function loadReference(fleetBaselineId: number, k: Knex): Promise<FleetRef
 	const row = await k('fleet_references').where({ fleet_baseline_id: fleetBaselineId }).first('reference_json');
 	if (!row) return null;
 	const r = JSON.parse(row.reference_json);
-	return { ...r, withinVar: Float64Array.from(r.withinVar), betweenVar: Float64Array.from(r.betweenVar) };
+	return {
+		...r,
+		withinVar: Float64Array.from(r.withinVar),
+		betweenVar: Float64Array.from(r.betweenVar),
+		blockVar: r.blockVar?.length ? Float64Array.from(r.blockVar) : undefined
+	};
 }
 
 async function recordSkip(recipeStepId: number, at: number, trigger: FleetTrigger, reason: string, k: Knex): Promise<number> {
@@ -246,6 +256,7 @@ export async function runFleetMatching(
 				modified_z: m.z,
 				p_value: m.adjustedP,
 				threshold: cmp.threshold,
+				median_z: m.medianZ,
 				flagged: m.flagged,
 				separating_json: JSON.stringify(m.separatingFeatures)
 			});
@@ -265,6 +276,7 @@ export async function runFleetMatching(
 					z: m.z,
 					adjustedP: m.adjustedP,
 					distance: m.distance,
+					medianZ: m.medianZ,
 					separating: named.map((f) => f.feature),
 					separatingDetail: named.map((f) => ({ feature: f.feature, z: f.z, offsetSd: f.offsetSd, qValue: f.qValue }))
 				}

@@ -142,6 +142,16 @@ describe('leakSignature: the one rule', () => {
 		expect(s).toEqual({ gases: ['air', 'helium'], channels: ['oes_587.6', 'oes_337.1', 'oes_706.5', 'oes_391.4'], supporting: [], evidence: 'Q' });
 	});
 
+	it('lines that only rise with the whole spectrum (a broadband shift) are not a leak', () => {
+		// every channel of a chamber about +3.4 above the fleet, N₂ bands among them (a cleaned window)
+		const flat = S(['oes_337.1', 0.3, 3.5], ['oes_357.7', 0.3, 3.4]);
+		expect(leakSignature('Q', flat)?.gases).toEqual(['air']); // without the broadband shift …
+		expect(leakSignature('Q', flat, undefined, 3.2)).toBeNull(); // … but they stand only 0.3 above it
+		expect(leakSignature('Q', S(['oes_337.1', 0.5, 9.5], ['oes_357.7', 0.3, 8]), undefined, 3.2)?.gases).toEqual(['air']);
+		const f = (feature: string, z: number) => ({ feature, z, flagged: true });
+		expect(fleetLeakSignature([f('oes_337.1', 3.5), f('oes_357.7', 3.4), f('oes_703.7', 3.3)], undefined, 3.1)).toBeNull();
+	});
+
 	it('a fleet separation: only named features with a known, positive statistic count', () => {
 		const f = (feature: string, z: number | undefined, flagged = true) => ({ feature, z, flagged });
 		expect(fleetLeakSignature([f('oes_703.7', 5), f('oes_667.8', 6), f('oes_587.6', 4)])).toEqual({ gases: ['helium'], channels: ['oes_667.8', 'oes_587.6'], supporting: [], evidence: 'fleet' });

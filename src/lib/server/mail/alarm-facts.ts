@@ -27,9 +27,9 @@ export interface AlarmFacts {
  * digest uses it for flagged chambers. Names alone carry no direction or significance, so they never
  * make a signature.
  */
-export function leakGasesOf(separating: readonly (string | { feature: string; z?: number | null; modifiedZ?: number | null; flagged?: boolean })[]): LeakGas[] {
+export function leakGasesOf(separating: readonly (string | { feature: string; z?: number | null; modifiedZ?: number | null; flagged?: boolean })[], medianZ = 0): LeakGas[] {
 	const entries = separating.filter((s): s is Exclude<typeof s, string> => typeof s !== 'string');
-	return fleetLeakSignature(entries.map((s) => ({ ...s, flagged: s.flagged ?? true })))?.gases ?? [];
+	return fleetLeakSignature(entries.map((s) => ({ ...s, flagged: s.flagged ?? true })), undefined, medianZ)?.gases ?? [];
 }
 
 export const GAS_NAMES: Record<string, string> = { air: 'nitrogen (air)', helium: 'helium' };
@@ -42,7 +42,7 @@ export async function alarmFacts(
 	if (a.rule === 'fleet') {
 		const sep = Array.isArray(a.detail.separating) ? (a.detail.separating as unknown[]).map(String) : [];
 		const detail = Array.isArray(a.detail.separatingDetail) ? (a.detail.separatingDetail as { feature: string; z?: number }[]) : [];
-		return { basis: 'fleet', top: sep.slice(0, top).map((feature) => ({ feature, share: null })), leakGases: leakGasesOf(detail) };
+		return { basis: 'fleet', top: sep.slice(0, top).map((feature) => ({ feature, share: null })), leakGases: leakGasesOf(detail, Number(a.detail.medianZ ?? 0)) };
 	}
 	const none: AlarmFacts = { basis: null, top: [], leakGases: [] };
 	if (a.worstWaferStepId === null || a.baselineId === null) return none;

@@ -99,7 +99,7 @@ export async function gatherDigest(chamberIds: number[], period: { from: number;
 			.andWhere('f.run_at', '>', from)
 			.andWhere('f.run_at', '<=', to)
 			.orderBy('f.run_at', 'desc')
-			.select('f.chamber_id', 'f.recipe_step_id', 'f.run_at', 'f.modified_z', 'f.separating_json', 'c.code', 'r.code as recipe', 'rs.name as step'),
+			.select('f.chamber_id', 'f.recipe_step_id', 'f.run_at', 'f.modified_z', 'f.median_z', 'f.separating_json', 'c.code', 'r.code as recipe', 'rs.name as step'),
 		'f.chamber_id'
 	);
 	const seen = new Set<string>();
@@ -125,7 +125,7 @@ export async function gatherDigest(chamberIds: number[], period: { from: number;
 			runAt: Number(r.run_at),
 			modifiedZ: Number(r.modified_z),
 			separating: separating.map((s) => s.feature),
-			leakGases: leakGasesOf(sep.filter((s) => s.flagged))
+			leakGases: leakGasesOf(sep.filter((s) => s.flagged), Number(r.median_z ?? 0))
 		});
 	}
 	flagged.sort((a, b) => Math.abs(b.modifiedZ) - Math.abs(a.modifiedZ) || a.chamberCode.localeCompare(b.chamberCode));

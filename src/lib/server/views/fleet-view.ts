@@ -95,6 +95,8 @@ export interface MatchRow {
 	z: number;
 	/** Fleet-adjusted p-value, or null for runs stored before it was recorded. */
 	adjustedP: number | null;
+	/** The chamber's median statistic over its features (broadband shift), 0 when not recorded. */
+	medianZ: number;
 	flagged: boolean;
 	separating: SeparatingFeature[];
 }
@@ -145,6 +147,7 @@ export async function latestRun(recipeStepId: number, k: Knex = db()): Promise<{
 			distance: r.distance,
 			z: r.modified_z,
 			adjustedP: r.p_value ?? null,
+			medianZ: Number(r.median_z ?? 0),
 			flagged: Boolean(r.flagged),
 			separating: readSeparating(r.separating_json)
 		}))
