@@ -34,7 +34,7 @@ export function fleetFigures(runs: number, features = 40): { size: number; false
 
 export async function runFleetBench(): Promise<BenchFigure[]> {
 	const rows: BenchFigure[] = [];
-	for (const f of fleetFigures(400)) {
+	for (const f of fleetFigures(300)) {
 		rows.push({ name: `fleet of ${f.size}: identical chambers, runs with any flag`, value: 100 * f.falseFlag, unit: '%', target: '≤ 1 %' });
 		rows.push({ name: `fleet of ${f.size}: chamber offset 2σ on 3 features, flagged`, value: 100 * f.power, unit: '%', target: '≥ 95 %' });
 	}

@@ -17,7 +17,8 @@ const SUITES: [string, string, string][] = [
 	['engine', './engine.ts', 'runEngineBench'],
 	['ingest', './ingest.ts', 'runIngestBench'],
 	['heatmap', './heatmap.ts', 'runHeatmapBench'],
-	['wafer', './wafer.ts', 'runWaferBench']
+	['wafer', './wafer.ts', 'runWaferBench'],
+	['fleet', './fleet.ts', 'runFleetBench']
 ];
 
 function fmt(v: number): string {
