@@ -23,13 +23,13 @@ export interface StepRef {
  */
 export async function resolveSteps(recipe: string | null, step: string | null, k: Knex = db()): Promise<StepRef[]> {
 	if (step !== null && recipe === null) throw new MatchingRequestError('Name the recipe of the step: ?recipe=CODE&step=NAME.');
-	const rows = await k('recipe_steps as rs')
+	const rows: { id: number; code: string; name: string }[] = await k('recipe_steps as rs')
 		.join('recipes as r', 'r.id', 'rs.recipe_id')
 		.modify((q) => (recipe !== null ? q.where('r.code', recipe) : q))
 		.orderBy([{ column: 'r.code' }, { column: 'rs.position' }])
 		.select('rs.id', 'r.code', 'rs.name');
 	if (recipe !== null && rows.length === 0) throw new MatchingRequestError(`No recipe "${recipe}".`);
-	const out = rows.map((r) => ({ id: r.id, recipe: r.code, step: r.name }));
+	const out: StepRef[] = rows.map((r) => ({ id: r.id, recipe: r.code, step: r.name }));
 	if (step === null) return out;
 	const hit = out.filter((s) => s.step === step);
 	if (!hit.length) throw new MatchingRequestError(`Recipe "${recipe}" has no step "${step}"; its steps: ${out.map((s) => s.step).join(', ')}.`);
