@@ -371,7 +371,7 @@ export function compareChambers(chambers: readonly ChamberWafers[], options: Fle
 		sumInvM -= 1 / m[best];
 	}
 
-	const zOf = (adjusted: number) => (adjusted >= 1 ? 0 : -normalQuantile(Math.max(adjusted / 2, 1e-300), 0, 1));
+	const zOf = (adjusted: number) => (adjusted >= 1 ? 0 : upperNormalScore(adjusted / 2));
 	const out: ChamberMatch[] = chambers.map((ch, c) => {
 		const s = test(c);
 		const flag = flaggedAt.get(c);
@@ -406,4 +406,27 @@ export function compareChambers(chambers: readonly ChamberWafers[], options: Fle
 		};
 	});
 	return { reference: ref, alpha, featureFdr: fdr, threshold: -normalQuantile(alpha / 2, 0, 1), window, chambers: out };
+}
+
+/**
+ * The normal score z with P(Z > z) = q, finite for any q in (0, 0.5].
+ * Formula: z = −Φ⁻¹(q) while q ≥ 10⁻¹⁵ (@stdlib's quantile loses every digit below); for smaller q the
+ * asymptotic inversion of Mills' ratio, z² ≈ −2 ln q − ln(−2 ln q) − ln 2π, refined by two Newton
+ * steps on ln P(Z > z) ≈ ln φ(z) − ln z + ln(1 − 1/z²) (Abramowitz & Stegun 1964, 26.2.12); q is
+ * floored at 10⁻³⁰⁰ (z ≈ 37), where the chamber is beyond doubt anyway.
+ * @param q upper-tail probability
+ * @returns z ≥ 0
+ * @example upperNormalScore(0.005) // → 2.5758
+ */
+export function upperNormalScore(q: number): number {
+	if (q >= 0.5) return 0;
+	if (q >= 1e-15) return -normalQuantile(q, 0, 1);
+	const lq = Math.log(Math.max(q, 1e-300));
+	let z = Math.sqrt(-2 * lq - Math.log(-2 * lq) - Math.log(2 * Math.PI));
+	for (let i = 0; i < 2; i++) {
+		const lt = -0.5 * z * z - 0.5 * Math.log(2 * Math.PI) - Math.log(z) + Math.log(1 - 1 / (z * z));
+		// d/dz ln P(Z > z) ≈ −z − 1/z
+		z -= (lt - lq) / (-z - 1 / z);
+	}
+	return z;
 }

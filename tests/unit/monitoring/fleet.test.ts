@@ -1,5 +1,6 @@
 import { describe, expect, it } from 'vitest';
 import { benjaminiHochberg, compareChambers, fitBaseline, fitFleetReference, modifiedZScores, MonitoringInputError, scoreWafer, simesCombined } from '../../../src/lib/monitoring';
+import { upperNormalScore } from '../../../src/lib/monitoring/fleet';
 import { simulateFleet } from '../../helpers/fleet-sim';
 import { seededNormal } from './helpers';
 
@@ -108,6 +109,19 @@ describe('fleet matching: false-flag rate and power by Monte Carlo (seeded; benc
 	});
 	it('over all sizes, at most 1.2 % of runs flag an identical chamber', () => {
 		expect(counts.reduce((s, c) => s + c.any, 0)).toBeLessThanOrEqual(14);
+	});
+});
+
+describe('upperNormalScore: z of a tiny upper-tail probability stays finite', () => {
+	it('agrees with scipy.stats.norm.isf (scipy 1.17.1) to 1e-9 at 0.005, 1e-7 at 1e-10, 5e-3 below 1e-15', () => {
+		expect(upperNormalScore(0.005)).toBeCloseTo(2.575829303548901, 9);
+		expect(upperNormalScore(1e-10)).toBeCloseTo(6.361340902404056, 7); // @stdlib's quantile: 1e-8 here
+		expect(upperNormalScore(1e-20)).toBeCloseTo(9.262340089798409, 2);
+		expect(upperNormalScore(1e-100)).toBeCloseTo(21.273453560965322, 2);
+		expect(upperNormalScore(1e-300)).toBeCloseTo(37.0470962993612, 2);
+		expect(upperNormalScore(0)).toBeGreaterThan(36);
+		expect(Number.isFinite(upperNormalScore(0))).toBe(true);
+		expect(upperNormalScore(0.7)).toBe(0);
 	});
 });
 

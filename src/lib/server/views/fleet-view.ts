@@ -145,7 +145,8 @@ export async function latestRun(recipeStepId: number, k: Knex = db()): Promise<{
 			windowFrom: Number(r.window_from),
 			windowTo: Number(r.window_to),
 			distance: r.distance,
-			z: r.modified_z,
+			// runs stored before the finite cap could hold an infinite z
+			z: Number.isFinite(r.modified_z) ? r.modified_z : 37.5,
 			adjustedP: r.p_value ?? null,
 			medianZ: Number(r.median_z ?? 0),
 			flagged: Boolean(r.flagged),

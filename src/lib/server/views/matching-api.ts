@@ -46,7 +46,7 @@ export async function matchingAnswer(s: StepRef, k: Knex = db()) {
 	const grid = await stepChannelGrid(s.id, k);
 	const lineOf = (f: string) => {
 		const l = identifyFeature(f, grid)[0];
-		return l ? `${l.species} ${l.wavelengthNm}` : null;
+		return l ? `${l.species} ${l.wavelengthNm.toFixed(1)}` : null;
 	};
 	const why =
 		run.runAt === null
