@@ -19,7 +19,8 @@ const SUITES: [string, string, string][] = [
 	['heatmap', './heatmap.ts', 'runHeatmapBench'],
 	['wafer', './wafer.ts', 'runWaferBench'],
 	['structure', './structure.ts', 'runStructureBench'],
-	['onboarding', './onboarding.ts', 'runOnboardingBench']
+	['onboarding', './onboarding.ts', 'runOnboardingBench'],
+	['fleet', './fleet.ts', 'runFleetBench']
 ];
 
 function fmt(v: number): string {

@@ -1,4 +1,4 @@
-import { EMISSION_LINES } from '../../src/lib/monitoring/emission-lines';
+import { KEY_EMISSION_LINES as EMISSION_LINES } from '../../src/lib/monitoring/emission-lines';
 import type { ChamberPersonality } from './chamber';
 import { GASES, LINE_STRENGTH, type Gas, type Species, type StepPhysics } from './recipes';
 import type { Stream } from './rng';

@@ -1,4 +1,4 @@
-import { EMISSION_LINES } from '../../src/lib/monitoring/emission-lines';
+import { KEY_EMISSION_LINES as EMISSION_LINES } from '../../src/lib/monitoring/emission-lines';
 
 /** Regular grid of the demo spectrometer's summary channels: 200, 203, …, 899 nm. */
 export const GRID_START_NM = 200;

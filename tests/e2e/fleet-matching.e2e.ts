@@ -1,4 +1,9 @@
-/** Fleet matching on the demo fab: the part-swap offset chamber stands apart on PGE-14. */
+/**
+ * Fleet matching on the demo fab: the RF-match chamber stands apart from the PGE-14 fleet on reflected
+ * power; the air-leak chamber on OXV-22 carries the safety reminder. The part-swap chamber's offset
+ * (Cl, H, F lines ≈ 2–2.5 chamber-to-chamber σ) lies within the fleet's own spread, so the calibrated
+ * method (≤ 1 % false-flag runs) does not set it apart — README, monitoring/fleet.ts.
+ */
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import type { Browser } from 'playwright-core';
 import { launch, screenshot, signInTo } from './browser.ts';
@@ -15,15 +20,15 @@ afterAll(async () => {
 });
 
 describe('fleet matching', () => {
-	it('flags the part-swap offset chamber, names its separating features, and gives a return check', async () => {
-		const chamber = EPISODE_CHAMBERS.partSwap;
+	it('flags the RF-match chamber, names reflected power first, and gives a return check', async () => {
+		const chamber = EPISODE_CHAMBERS.rfMatch;
 		const ctx = await browser.newContext({ viewport: { width: 1280, height: 800 } });
 		const page = await ctx.newPage();
 		await signInTo(page, 'viewer', `/fleet`);
-		// The offset shows in both PGE-14 steps (seeds/demo/episodes.ts); it must be flagged in at least one.
+		// The wear shows in every PGE-14 step (seeds/demo/episodes.ts); it must be flagged in at least one.
 		const steps = page.getByRole('navigation', { name: 'Recipe step' }).getByRole('link', { name: /PGE-14/ });
 		const n = await steps.count();
-		expect(n).toBe(2);
+		expect(n).toBeGreaterThanOrEqual(2);
 		const row = page.getByTestId(`match-${chamber}`);
 		let flaggedIn = 0;
 		for (let i = n - 1; i >= 0; i--) {
@@ -36,11 +41,11 @@ describe('fleet matching', () => {
 			}
 		}
 		expect(flaggedIn).toBe(1);
-		// Ranked by modified z: the offset chamber is among the first rows.
+		// Ranked by z: the worn chamber is among the first rows.
 		const order = await page.locator('[data-testid^="match-"][data-flagged]').evaluateAll((els) => els.map((e) => e.getAttribute('data-testid')));
 		expect(order.slice(0, 2)).toContain(`match-${chamber}`);
 		await row.getByRole('link', { name: 'Features' }).click();
-		await expect.poll(() => page.getByTestId('separating').textContent()).toMatch(/703\.7|685\.6|837\.6|656\.3|dc_bias/);
+		await expect.poll(() => page.getByTestId('separating').textContent()).toMatch(/rf_reflected_w/);
 		await row.getByRole('link', { name: 'Check' }).click();
 		const check = page.getByTestId('return-check');
 		await check.waitFor();

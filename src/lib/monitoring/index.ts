@@ -34,6 +34,9 @@ export { scoreWafer, scoreBatch, rowFromRecord, type WaferScore, type BatchScore
 export {
 	contributions,
 	rankContributions,
+	contributionLimits,
+	t2ContributionsUninformative,
+	type ContributionLimits,
 	type ContributionKind,
 	type Contributions,
 	type RankedContribution
@@ -42,12 +45,16 @@ export { modifiedZScores, MODIFIED_Z_THRESHOLD, type ModifiedZ } from './robust'
 export { screenGoldenCandidates, SCREENING_METHOD, type ScreeningResult, type ScreenedWafer, type ScreeningOptions } from './golden-screening';
 export {
 	compareChambers,
+	fitFleetReference,
+	FLEET_DEFAULTS,
+	type FleetReference,
 	type ChamberWafers,
 	type FleetOptions,
 	type FleetComparison,
 	type ChamberMatch,
 	type SeparatingFeature
 } from './fleet';
+export { benjaminiHochberg, simesCombined, type FdrResult } from './fdr';
 export { referenceStats, type InControl } from './reference';
 export { ewma, type EwmaChart, type EwmaOptions } from './ewma';
 export { sampleAutocorrelation, bartlettStandardErrors } from './autocorrelation';
@@ -69,16 +76,28 @@ export {
 	type ActinometryPlan,
 	type ActinometryRatioSpec
 } from './actinometry';
-export { EMISSION_LINES, identifyLines, identifyFeature, type EmissionLine } from './emission-lines';
+export {
+	EMISSION_LINES,
+	KEY_EMISSION_LINES,
+	DEFAULT_MATCH_NM,
+	MAX_MATCH_NM,
+	channelGrid,
+	identifyLines,
+	identifyFeature,
+	type ChannelGrid,
+	type EmissionLine
+} from './emission-lines';
 export {
 	leakSignature,
 	waferLeakSignature,
 	leakGasOf,
+	fleetLeakSignature,
 	goldenZ,
 	LEAK_ELEMENTS,
 	LEAK_RISE_Z,
 	LEAK_TOP,
 	LEAK_Q_SHARE,
+	LEAK_MIN_LINES,
 	type LeakGas,
 	type LeakEvidence,
 	type LeakContributor,

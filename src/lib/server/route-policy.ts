@@ -54,6 +54,8 @@ export const ROUTE_POLICY: Record<string, RoutePolicy> = {
 	'/api/health': { GET: 'public' },
 	'/api/me': { GET: 'viewer' },
 	'/api/fleet': { GET: 'viewer', token: 'read' },
+	// Fleet matching: read the latest run (read tokens too); run it now (an engineer).
+	'/api/matching': { GET: 'viewer', POST: 'engineer', token: 'read' },
 	'/uploads': { GET: 'engineer' },
 	// Feature-set changes: everyone sees them (a refused step matters to all); engineers decide.
 	'/uploads/feature-sets': { GET: 'viewer', actions: { accept: 'engineer', dismiss: 'engineer' } },

@@ -129,14 +129,17 @@ describe('alarm mails', () => {
 
 	it('carries the leak reminder when an alarm’s leading lines are N₂ or He', async () => {
 		await env.k('features').where({ recipe_step_id: fab.recipeStepId, position: 0 }).update({ name: 'oes_587.6' });
+		await env.k('features').where({ recipe_step_id: fab.recipeStepId, position: 1 }).update({ name: 'oes_667.8' });
 		const f = await open(1, 'fleet', T0 + 120 * MIN);
-		await env.k('alarms').where({ id: f.id }).update({ detail_json: JSON.stringify({ separating: ['oes_587.6', 'f1'] }) });
+		// two distinct He lines named by the fleet's FDR control, both above the fleet (the leak rule)
+		const separatingDetail = [{ feature: 'oes_587.6', z: 7.5 }, { feature: 'oes_667.8', z: 5.1 }];
+		await env.k('alarms').where({ id: f.id }).update({ detail_json: JSON.stringify({ separating: ['oes_587.6', 'oes_667.8'], separatingDetail }) });
 		await deliver(T0 + 121 * MIN);
 		const last = (await inbox('bob@wrenfield.example')).at(-1)!;
 		expect(last.subject).toBe('Lockstep alarm: CH2 Apart from fleet (worst ratio 2.00)');
 		expect(last.text_body).toContain('Leak-like signature — Lockstep is not a safety system');
 		expect(last.text_body).toContain('Lines of helium lead');
 		expect(last.text_body).toContain('gas detection, interlocks and safety procedures are authoritative');
-		expect(last.text_body).toContain('leading features: He I 587.6 nm, f1 — apart from the fleet');
+		expect(last.text_body).toContain('leading features: He I 587.6 nm, He I 667.8 nm — apart from the fleet');
 	});
 });

@@ -3,7 +3,7 @@
  * second area AR2 with CH9 (out of the subscriber's scope). Times are set so that one digest period,
  * (PERIOD_FROM, PERIOD_TO], holds a chosen set of events:
  * - CH1: a baseline from 80 golden wafers, 30 in-control wafers in the period, then 2 wafers with a big
- *   shift on feature 4, which is named after the N₂ 337.1 nm band: a Q-led, leak-like alarm;
+ *   shift on features 4 and 5, named after the N₂ 337.1 and 357.7 nm bands: a Q-led, leak-like alarm;
  * - CH2: an EWMA alarm opened 4 days before the period end (still open), and a run alarm acknowledged
  *   in the period with HW-MFC / hold recommended;
  * - CH3: flagged by fleet matching in the period (CH2 matched, not flagged);
@@ -31,6 +31,7 @@ export async function buildKnownFab(k: Knex) {
 	setClock(PERIOD_FROM - 3 * DAY);
 	const fab = await createFab(k, { chambers: 4, features: 12 });
 	await k('features').where({ recipe_step_id: fab.recipeStepId, position: 4 }).update({ name: 'oes_337.1', kind: 'oes', wavelength_nm: 337.1 });
+	await k('features').where({ recipe_step_id: fab.recipeStepId, position: 5 }).update({ name: 'oes_357.7', kind: 'oes', wavelength_nm: 357.7 });
 	const [area2] = await k('areas').insert({ code: 'AR2', name: 'Other area' }).returning('id');
 	const [tool2] = await k('tools').insert({ code: 'TL9', name: 'Other tool', area_id: idOf(area2) }).returning('id');
 	const [ch9] = await k('chambers').insert({ code: 'CH9', name: 'Chamber 9', tool_id: idOf(tool2), created_at: 0 }).returning('id');
@@ -50,12 +51,15 @@ export async function buildKnownFab(k: Knex) {
 	await k.transaction((trx) => scoreWaferSteps(trx, asNew(quiet, ch1)));
 	for (const a of await k('alarms').whereNot('state', 'closed')) await closeAlarm(k, { alarmId: a.id, userId: engineer.id, comment: 'test reset' });
 
-	// The leak-like excursion: N₂ band up by 40 golden noise levels (a new direction: Q).
+	// The leak-like excursion: two N₂ bands (337.1, 357.7) up by 40 and 25 golden noise levels (a new
+	// direction: Q; the leak rule needs two distinct nitrogen lines).
 	setClock(PERIOD_FROM + 12 * HOUR);
+	const leakRows = latentRows(2, 12, 3, { feature: 4, by: 4 });
+	for (const x of leakRows) x[5] += 2.5;
 	const shifted = await insertWaferSteps(k, {
 		chamberId: ch1,
 		recipeStepId: fab.recipeStepId,
-		rows: latentRows(2, 12, 3, { feature: 4, by: 4 }),
+		rows: leakRows,
 		start: PERIOD_FROM + 11 * HOUR,
 		everyMs: 5 * 60_000,
 		prefix: 'x'

@@ -22,17 +22,20 @@ const form = (fields: Record<string, string | string[]>) => {
 
 beforeAll(async () => {
 	env = await useTempDb();
-	// Feature names that the emission-line table knows: N2 337.1 nm and He 587.6 nm among them.
+	// Feature names that the emission-line table knows: N2 337.1 and 357.7 nm and He 587.6 nm among them.
 	fab = await createFab(env.k, { chambers: 2, features: 8 });
-	const names = ['oes_337.1', 'oes_587.6', 'oes_703.7', 'oes_750.4', 'oes_777.4', 'oes_656.3', 'rf_reflected_w', 'pressure_mtorr'];
+	const names = ['oes_337.1', 'oes_587.6', 'oes_703.7', 'oes_750.4', 'oes_777.4', 'oes_357.7', 'rf_reflected_w', 'pressure_mtorr'];
 	for (let j = 0; j < names.length; j++) await env.k('features').where({ recipe_step_id: fab.recipeStepId, position: j }).update({ name: names[j], kind: j < 6 ? 'oes' : 'sensor' });
 	engineer = (await createUser({ username: 'eng', displayName: 'Eng <b>One</b>', password: 'engineer-pass', role: 'engineer' })).id;
 	const ch = fab.chamberIds[0];
 	const golden = await insertWaferSteps(env.k, { chamberId: ch, recipeStepId: fab.recipeStepId, rows: latentRows(60, 8, 1), start: T0, prefix: 'g', golden: true });
 	const d = await createDraftBaseline({ chamberId: ch, recipeStepId: fab.recipeStepId, waferStepIds: golden.map((g) => g.id), components: 3, builtBy: engineer });
 	await approveBaseline(d.id, engineer);
-	// A wafer with a large shift on the N2 337.1 channel only: a new direction, so Q leads.
-	const leak = await insertWaferSteps(env.k, { chamberId: ch, recipeStepId: fab.recipeStepId, rows: latentRows(1, 8, 9, { feature: 0, by: 8 }), start: T0 + 48 * HOUR, prefix: 'leak' });
+	// A wafer with a large shift on two N2 bands (337.1, 357.7): a new direction, so Q leads; the leak
+	// rule needs two distinct nitrogen lines.
+	const leakRows = latentRows(1, 8, 9, { feature: 0, by: 8 });
+	leakRows[0][5] += 8;
+	const leak = await insertWaferSteps(env.k, { chamberId: ch, recipeStepId: fab.recipeStepId, rows: leakRows, start: T0 + 48 * HOUR, prefix: 'leak' });
 	await env.k.transaction((trx) =>
 		scoreWaferSteps(trx, leak.map((w) => ({ id: w.id, chamberId: ch, recipeStepId: fab.recipeStepId, processedAt: w.processedAt, featureSetVersion: 1, values: w.values })))
 	);

@@ -1,5 +1,5 @@
 import { describe, expect, it } from 'vitest';
-import { EMISSION_LINES } from '../../../src/lib/monitoring/emission-lines';
+import { KEY_EMISSION_LINES as EMISSION_LINES } from '../../../src/lib/monitoring/emission-lines';
 import { oesChannels, oesName, renderSpectrum, transmission } from '../../../seeds/demo/index';
 import { col, demo, mean, sd, wafersSinceClean } from './fixture';
 

@@ -40,7 +40,7 @@ describe('actinometry ratios', () => {
 		expect(parseChannelWavelength('pressure_mtorr')).toBeNull();
 		expect(parseChannelWavelength('step5_oes_1100')).toBe(1100);
 		expect(identifyFeature('oes_656.0')[0].species).toBe('H I');
-		expect(identifyFeature('oes_337.5')[0].element).toBe('N2');
+		expect(identifyFeature('oes_337.5')[0].element).toBe('N2'); // within 0.5 nm without a grid
 		expect(identifyFeature('bias_rf_w')).toEqual([]);
 	});
 });

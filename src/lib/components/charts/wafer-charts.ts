@@ -50,16 +50,20 @@ export function contributionOption(list: Contributor[], c: ChartColors, stat: 'T
 	const axis = baseAxis(c);
 	// Red only for a leak line that has actually risen (the engine's leak rule): a quiet N₂ channel is not news.
 	const colour = (r: Contributor) => (r.leakGas !== null && r.z > LEAK_RISE_Z ? c.alarm : r.kind === 'sensor' ? c.warn : c.info);
+	// A contribution inside its control limit (Alcala & Qin 2011) is drawn faint: it is what an
+	// in-control wafer shows, not evidence. The tick on each bar is the limit.
+	const hasLimits = rows.some((r) => r.limit !== null);
 	return {
 		animation: false,
-		grid: { left: 8, right: 44, top: 8, bottom: 28, containLabel: true },
+		grid: { left: 8, right: 84, top: 8, bottom: 24, containLabel: true },
 		tooltip: {
 			...baseTooltip(c),
 			trigger: 'item',
 			formatter: (p: { dataIndex: number }) => {
 				const r = rows[p.dataIndex];
 				const line = r.lines[0] ? `<br/>${contributorLabel(r)} — ${chemical(r.lines[0].note)}` : '';
-				return `<b>${r.feature}</b>${line}<br/>contribution to ${stat} ${value(r.value)} (${(r.share * 100).toFixed(1)} % of the total)<br/>wafer value ${r.z >= 0 ? '+' : ''}${r.z.toFixed(1)} golden σ`;
+				const lim = r.limit !== null ? `<br/>${r.significant ? 'beyond' : 'inside'} its contribution limit ${value(r.limit)}` : '';
+				return `<b>${r.feature}</b>${line}<br/>contribution to ${stat} ${value(r.value)} (${(r.share * 100).toFixed(1)} % of the total)${lim}<br/>wafer value ${r.z >= 0 ? '+' : ''}${r.z.toFixed(1)} golden σ`;
 			}
 		},
 		xAxis: {
@@ -76,9 +80,30 @@ export function contributionOption(list: Contributor[], c: ChartColors, stat: 'T
 			{
 				type: 'bar',
 				barMaxWidth: 14,
-				data: rows.map((r) => ({ value: r.value, itemStyle: { color: colour(r) } })),
-				label: { show: true, position: 'right', color: c.ink3, fontSize: 10, formatter: (p: { dataIndex: number }) => `${Math.max(1, Math.round(rows[p.dataIndex].share * 100))} %` }
-			}
+				data: rows.map((r) => ({ value: r.value, itemStyle: { color: colour(r), opacity: !hasLimits || r.significant ? 1 : 0.35 } })),
+				label: {
+					show: true,
+					position: 'right',
+					color: c.ink3,
+					fontSize: 10,
+					formatter: (p: { dataIndex: number }) => `${Math.max(1, Math.round(rows[p.dataIndex].share * 100))} %${rows[p.dataIndex].significant ? ' · beyond' : ''}`
+				}
+			},
+			...(hasLimits
+				? [
+						{
+							type: 'scatter',
+							name: 'contribution limit',
+							symbol: 'rect',
+							symbolSize: [2, 16],
+							itemStyle: { color: c.ink1 },
+							data: rows.map((r) => r.limit),
+							tooltip: { show: false },
+							silent: true,
+							z: 5
+						}
+					]
+				: [])
 		]
 	};
 }

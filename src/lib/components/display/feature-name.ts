@@ -6,7 +6,7 @@
  * The line table and the matching are the engine's (identifyFeature in monitoring/emission-lines.ts).
  * Relative imports with extensions: the mail jobs run this outside Vite.
  */
-import { identifyFeature } from '../../monitoring/emission-lines.ts';
+import { identifyFeature, type ChannelGrid } from '../../monitoring/emission-lines.ts';
 
 const SUB: Record<string, string> = { '0': '₀', '1': '₁', '2': '₂', '3': '₃', '4': '₄', '5': '₅', '6': '₆', '7': '₇', '8': '₈', '9': '₉' };
 
@@ -38,11 +38,14 @@ export interface FeatureName {
 	identified: boolean;
 }
 
-/** The one formatter for a feature column's name (see the module comment). */
-export function nameFeature(feature: string): FeatureName {
+/**
+ * The one formatter for a feature column's name (see the module comment). `grid` is the step's channel
+ * grid (or a tolerance in nm), so a channel is named only within its own cell (identifyFeature).
+ */
+export function nameFeature(feature: string, grid?: number | ChannelGrid): FeatureName {
 	const nm = channelWavelength(feature);
 	if (nm === null) return { label: feature, code: feature, note: null, identified: false };
-	const line = identifyFeature(feature)[0];
+	const line = identifyFeature(feature, grid)[0];
 	if (!line) return { label: `OES ${nm.toFixed(1)} nm`, code: feature, note: null, identified: false };
 	// A channel off the line's centre says so, so two channels near one line do not read as the same name.
 	const off = Math.abs(nm - line.wavelengthNm) > OFF_CENTRE_NM ? ` (ch. ${nm.toFixed(1)})` : '';
@@ -50,6 +53,6 @@ export function nameFeature(feature: string): FeatureName {
 }
 
 /** Just the label: `featureLabel('oes_337.1')` → "N₂ 337.1 nm". */
-export function featureLabel(feature: string): string {
-	return nameFeature(feature).label;
+export function featureLabel(feature: string, grid?: number | ChannelGrid): string {
+	return nameFeature(feature, grid).label;
 }

@@ -10,7 +10,7 @@
  *   features.
  */
 import type { Knex } from 'knex';
-import { contributions, leakSignature, rankContributions, waferLeakSignature, type LeakGas } from '../../monitoring/index.ts';
+import { contributions, fleetLeakSignature, rankContributions, waferLeakSignature, type LeakGas } from '../../monitoring/index.ts';
 import { getModel } from '../baselines.ts';
 import { decodeValues } from '../feature-values.ts';
 
@@ -23,11 +23,13 @@ export interface AlarmFacts {
 }
 
 /**
- * The gases of a fleet separation's features (names only, each flagged on its own), by the engine's
- * rule; the digest uses it for flagged chambers.
+ * The gases of a fleet separation's named features, by the engine's rule (fleetLeakSignature); the
+ * digest uses it for flagged chambers. Names alone carry no direction or significance, so they never
+ * make a signature.
  */
-export function leakGasesOf(separating: string[]): LeakGas[] {
-	return leakSignature('fleet', separating.map((feature) => ({ feature })))?.gases ?? [];
+export function leakGasesOf(separating: readonly (string | { feature: string; z?: number | null; modifiedZ?: number | null; flagged?: boolean })[], medianZ = 0): LeakGas[] {
+	const entries = separating.filter((s): s is Exclude<typeof s, string> => typeof s !== 'string');
+	return fleetLeakSignature(entries.map((s) => ({ ...s, flagged: s.flagged ?? true })), undefined, medianZ)?.gases ?? [];
 }
 
 export const GAS_NAMES: Record<string, string> = { air: 'nitrogen (air)', helium: 'helium' };
@@ -39,7 +41,8 @@ export async function alarmFacts(
 ): Promise<AlarmFacts> {
 	if (a.rule === 'fleet') {
 		const sep = Array.isArray(a.detail.separating) ? (a.detail.separating as unknown[]).map(String) : [];
-		return { basis: 'fleet', top: sep.slice(0, top).map((feature) => ({ feature, share: null })), leakGases: leakGasesOf(sep.slice(0, top)) };
+		const detail = Array.isArray(a.detail.separatingDetail) ? (a.detail.separatingDetail as { feature: string; z?: number }[]) : [];
+		return { basis: 'fleet', top: sep.slice(0, top).map((feature) => ({ feature, share: null })), leakGases: leakGasesOf(detail, Number(a.detail.medianZ ?? 0)) };
 	}
 	const none: AlarmFacts = { basis: null, top: [], leakGases: [] };
 	if (a.worstWaferStepId === null || a.baselineId === null) return none;
@@ -52,8 +55,9 @@ export async function alarmFacts(
 		if (values.length !== model.p) return none;
 		const qLeads = Number(score.q_ratio) >= Number(score.t2_ratio);
 		const c = contributions(model, values, 'rbc');
-		const ranked = rankContributions(qLeads ? c.q : (c.t2 ?? c.q), top);
-		return { basis: qLeads ? 'Q' : 'T²', top: ranked.map((r) => ({ feature: r.feature, share: r.share })), leakGases: waferLeakSignature(model, values)?.gases ?? [] };
+		// with one component T² contributions say nothing (all equal T²): the mail lists Q's instead
+		const ranked = rankContributions(qLeads || !c.t2 ? c.q : c.t2, top);
+		return { basis: qLeads || !c.t2 ? 'Q' : 'T²', top: ranked.map((r) => ({ feature: r.feature, share: r.share })), leakGases: waferLeakSignature(model, values)?.gases ?? [] };
 	} catch {
 		return none; // an unreadable model: the mail goes without the features rather than not at all
 	}

@@ -99,7 +99,7 @@ export async function gatherDigest(chamberIds: number[], period: { from: number;
 			.andWhere('f.run_at', '>', from)
 			.andWhere('f.run_at', '<=', to)
 			.orderBy('f.run_at', 'desc')
-			.select('f.chamber_id', 'f.recipe_step_id', 'f.run_at', 'f.modified_z', 'f.separating_json', 'c.code', 'r.code as recipe', 'rs.name as step'),
+			.select('f.chamber_id', 'f.recipe_step_id', 'f.run_at', 'f.modified_z', 'f.median_z', 'f.separating_json', 'c.code', 'r.code as recipe', 'rs.name as step'),
 		'f.chamber_id'
 	);
 	const seen = new Set<string>();
@@ -108,7 +108,7 @@ export async function gatherDigest(chamberIds: number[], period: { from: number;
 		const key = `${r.chamber_id}:${r.recipe_step_id}`;
 		if (seen.has(key)) continue;
 		seen.add(key);
-		let sep: { feature: string; flagged: boolean; modifiedZ: number }[] = [];
+		let sep: { feature: string; flagged: boolean; z?: number; modifiedZ?: number }[] = [];
 		try {
 			sep = JSON.parse(r.separating_json);
 		} catch {
@@ -116,8 +116,7 @@ export async function gatherDigest(chamberIds: number[], period: { from: number;
 		}
 		const separating = sep
 			.filter((s) => s.flagged)
-			.sort((a, b) => Math.abs(b.modifiedZ) - Math.abs(a.modifiedZ))
-			.map((s) => s.feature)
+			.sort((a, b) => Math.abs(b.z ?? b.modifiedZ ?? 0) - Math.abs(a.z ?? a.modifiedZ ?? 0))
 			.slice(0, 5);
 		flagged.push({
 			chamberCode: r.code,
@@ -125,8 +124,8 @@ export async function gatherDigest(chamberIds: number[], period: { from: number;
 			recipeStep: `${r.recipe} / ${r.step}`,
 			runAt: Number(r.run_at),
 			modifiedZ: Number(r.modified_z),
-			separating,
-			leakGases: leakGasesOf(separating)
+			separating: separating.map((s) => s.feature),
+			leakGases: leakGasesOf(sep.filter((s) => s.flagged), Number(r.median_z ?? 0))
 		});
 	}
 	flagged.sort((a, b) => Math.abs(b.modifiedZ) - Math.abs(a.modifiedZ) || a.chamberCode.localeCompare(b.chamberCode));

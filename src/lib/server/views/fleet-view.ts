@@ -1,15 +1,25 @@
 /**
- * Read model of the fleet matching screen: per recipe step, the latest fleet_matches run (chambers
- * ranked by distance to the fleet, modified z, separating features), recent window means of the key
- * emission lines per chamber, and the "return to production" check of one chamber after maintenance.
- * The matching itself runs in fleet-matching.ts (hourly job, or "run now").
+ * Read model of the fleet matching screen: per recipe step, the latest run (chambers ranked by their
+ * standardized statistic z, separating features named under false-discovery control), whether it has
+ * never run or why the latest attempt was skipped, the fleet model's state (built from which approved
+ * baselines, stale or not), recent window means of the key emission lines per chamber, and the
+ * "return to production" check of one chamber after maintenance. The matching itself runs in
+ * fleet-matching.ts (hourly job, "run now", or POST /api/matching).
  */
 import type { Knex } from 'knex';
-import { MODIFIED_Z_THRESHOLD, parseChannelWavelength, scoreBatch, type SeparatingFeature } from '../../monitoring/index.ts';
+import { channelGrid, FLEET_DEFAULTS, parseChannelWavelength, scoreBatch, type SeparatingFeature } from '../../monitoring/index.ts';
 import { getActiveBaseline, getActiveFleetBaseline } from '../baselines.ts';
 import { db } from '../db.ts';
 import { decodeValues } from '../feature-values.ts';
+import { fleetModelState, type FleetModelState } from '../fleet-matching.ts';
 import { getSetting } from '../settings.ts';
+
+export interface FleetAttempt {
+	at: number;
+	status: 'ran' | 'skipped';
+	reason: string | null;
+	trigger: string;
+}
 
 export interface FleetStep {
 	id: number;
@@ -17,23 +27,58 @@ export interface FleetStep {
 	stepName: string;
 	fleetModelId: number | null;
 	fleetModelVersion: number | null;
+	model: FleetModelState;
+	/** The latest completed run, or null: never run. */
 	lastRunAt: number | null;
+	/** The latest attempt, run or skipped (null: never attempted). */
+	lastAttempt: FleetAttempt | null;
 	flagged: number;
+}
+
+async function latestAttempt(recipeStepId: number, k: Knex): Promise<FleetAttempt | null> {
+	const a = await k('fleet_runs').where({ recipe_step_id: recipeStepId }).orderBy([{ column: 'run_at', order: 'desc' }, { column: 'id', order: 'desc' }]).first('run_at', 'status', 'reason', 'trigger');
+	return a ? { at: Number(a.run_at), status: a.status, reason: a.reason, trigger: a.trigger } : null;
 }
 
 export async function fleetSteps(k: Knex = db()): Promise<FleetStep[]> {
 	const steps = await k('recipe_steps as rs').join('recipes as r', 'r.id', 'rs.recipe_id').orderBy([{ column: 'r.code' }, { column: 'rs.position' }]).select('rs.id', 'r.code', 'rs.name');
-	const models = await k('baselines').where({ scope: 'fleet', status: 'active' }).whereNull('chamber_id').select('id', 'recipe_step_id', 'version');
 	const runs = await k('fleet_matches').groupBy('recipe_step_id').select('recipe_step_id', k.raw('max(run_at) as at'));
 	const out: FleetStep[] = [];
 	for (const s of steps) {
-		const m = models.find((x) => x.recipe_step_id === s.id);
+		const model = await fleetModelState(s.id, k);
 		const run = runs.find((x) => x.recipe_step_id === s.id);
 		const at = run ? Number(run.at) : null;
 		const flagged = at === null ? 0 : Number((await k('fleet_matches').where({ recipe_step_id: s.id, run_at: at, flagged: true }).count({ n: '*' }).first())?.n ?? 0);
-		out.push({ id: s.id, recipeCode: s.code, stepName: s.name, fleetModelId: m?.id ?? null, fleetModelVersion: m?.version ?? null, lastRunAt: at, flagged });
+		// Runs from before attempts were recorded count as attempts too.
+		const attempt = (await latestAttempt(s.id, k)) ?? (at !== null ? { at, status: 'ran' as const, reason: null, trigger: 'schedule' } : null);
+		out.push({ id: s.id, recipeCode: s.code, stepName: s.name, fleetModelId: model.fleetBaselineId, fleetModelVersion: model.version, model, lastRunAt: at, lastAttempt: attempt, flagged });
 	}
 	return out;
+}
+
+/** Whether fleet matching has run for a set of steps, for the landing page (never reassure wrongly). */
+export interface FleetRunSummary {
+	/** recipe steps considered */
+	steps: number;
+	/** steps with at least one completed run */
+	matched: number;
+	/** the latest completed run over those steps, or null: never run */
+	lastRunAt: number | null;
+	/** steps whose latest attempt was skipped, with the reason */
+	skipped: { recipeStepId: number; reason: string }[];
+}
+
+export async function fleetRunSummary(stepIds: number[] | null, k: Knex = db()): Promise<FleetRunSummary> {
+	const ids = stepIds ?? ((await k('recipe_steps').pluck('id')) as number[]);
+	if (!ids.length) return { steps: 0, matched: 0, lastRunAt: null, skipped: [] };
+	const ran = await k('fleet_matches').whereIn('recipe_step_id', ids).groupBy('recipe_step_id').select('recipe_step_id', k.raw('max(run_at) as at'));
+	const skipped: FleetRunSummary['skipped'] = [];
+	for (const id of ids) {
+		const a = await latestAttempt(id, k);
+		if (a?.status === 'skipped') skipped.push({ recipeStepId: id, reason: a.reason ?? 'skipped' });
+	}
+	const last = ran.reduce((m: number | null, r) => Math.max(m ?? 0, Number(r.at)), null);
+	return { steps: ids.length, matched: ran.length, lastRunAt: last, skipped };
 }
 
 export interface MatchRow {
@@ -44,15 +89,39 @@ export interface MatchRow {
 	wafers: number;
 	windowFrom: number;
 	windowTo: number;
+	/** Largest |offset| over the features, in within-chamber σ. */
 	distance: number;
-	modifiedZ: number;
+	/** Standardized statistic (monitoring/fleet.ts): normal score of the fleet-adjusted p-value. */
+	z: number;
+	/** Fleet-adjusted p-value, or null for runs stored before it was recorded. */
+	adjustedP: number | null;
+	/** The chamber's median statistic over its features (broadband shift), 0 when not recorded. */
+	medianZ: number;
 	flagged: boolean;
 	separating: SeparatingFeature[];
 }
 
-export async function latestRun(recipeStepId: number, k: Knex = db()): Promise<{ runAt: number | null; threshold: number; rows: MatchRow[] }> {
+/** Runs stored before the current method kept `modifiedZ` per feature; read either. */
+function readSeparating(json: string): SeparatingFeature[] {
+	try {
+		const list = JSON.parse(json) as (Partial<SeparatingFeature> & { feature: string; modifiedZ?: number })[];
+		return list.map((f) => ({
+			feature: f.feature,
+			offsetSd: f.offsetSd ?? 0,
+			z: f.z ?? f.modifiedZ ?? 0,
+			pValue: f.pValue ?? Number.NaN,
+			qValue: f.qValue ?? Number.NaN,
+			flagged: Boolean(f.flagged)
+		}));
+	} catch {
+		return [];
+	}
+}
+
+export async function latestRun(recipeStepId: number, k: Knex = db()): Promise<{ runAt: number | null; threshold: number; alpha: number; featureFdr: number; rows: MatchRow[] }> {
+	const empty = { runAt: null, threshold: 2.576, alpha: FLEET_DEFAULTS.alpha, featureFdr: FLEET_DEFAULTS.featureFdr, rows: [] };
 	const last = await k('fleet_matches').where({ recipe_step_id: recipeStepId }).max({ at: 'run_at' }).first();
-	if (!last?.at) return { runAt: null, threshold: MODIFIED_Z_THRESHOLD, rows: [] };
+	if (!last?.at) return empty;
 	const runAt = Number(last.at);
 	const rows = await k('fleet_matches as f')
 		.join('chambers as c', 'c.id', 'f.chamber_id')
@@ -61,31 +130,37 @@ export async function latestRun(recipeStepId: number, k: Knex = db()): Promise<{
 		.where({ 'f.recipe_step_id': recipeStepId, 'f.run_at': runAt })
 		.orderBy('f.modified_z', 'desc')
 		.select('f.*', 'c.code', 'ar.name as area_name', 'c.requalify_since');
+	const run = await k('fleet_runs').where({ recipe_step_id: recipeStepId, run_at: runAt, status: 'ran' }).first('alpha', 'threshold');
 	return {
 		runAt,
-		threshold: MODIFIED_Z_THRESHOLD,
-		rows: rows.map((r) => {
-			let separating: SeparatingFeature[] = [];
-			try {
-				separating = JSON.parse(r.separating_json);
-			} catch {
-				separating = [];
-			}
-			return {
-				chamberId: r.chamber_id,
-				chamberCode: r.code,
-				areaName: r.area_name,
-				requalify: r.requalify_since !== null,
-				wafers: r.wafers,
-				windowFrom: Number(r.window_from),
-				windowTo: Number(r.window_to),
-				distance: r.distance,
-				modifiedZ: r.modified_z,
-				flagged: Boolean(r.flagged),
-				separating
-			};
-		})
+		threshold: Number(run?.threshold ?? rows[0]?.threshold ?? empty.threshold),
+		alpha: Number(run?.alpha ?? empty.alpha),
+		featureFdr: FLEET_DEFAULTS.featureFdr,
+		rows: rows.map((r) => ({
+			chamberId: r.chamber_id,
+			chamberCode: r.code,
+			areaName: r.area_name,
+			requalify: r.requalify_since !== null,
+			wafers: r.wafers,
+			windowFrom: Number(r.window_from),
+			windowTo: Number(r.window_to),
+			distance: r.distance,
+			// runs stored before the finite cap could hold an infinite z
+			z: Number.isFinite(r.modified_z) ? r.modified_z : 37.5,
+			adjustedP: r.p_value ?? null,
+			medianZ: Number(r.median_z ?? 0),
+			flagged: Boolean(r.flagged),
+			separating: readSeparating(r.separating_json)
+		}))
 	};
+}
+
+/** The OES channel grid of a step's current feature set, to name channels after lines (emission-lines.ts). */
+export async function stepChannelGrid(recipeStepId: number, k: Knex = db()): Promise<number[]> {
+	const step = await k('recipe_steps').where({ id: recipeStepId }).first('feature_set_version');
+	if (!step) return [];
+	const rows = await k('features').where({ recipe_step_id: recipeStepId, set_version: step.feature_set_version, kind: 'oes' }).select('name', 'wavelength_nm');
+	return channelGrid(rows.map((r) => r.wavelength_nm ?? r.name));
 }
 
 /** Lines an etch engineer reads first: radicals, actinometer, and the leak and water tracers. */
@@ -202,15 +277,15 @@ export async function returnToProduction(chamberCode: string, recipeStepId: numb
 			const over = fits.filter((_, i) => s.t2[i] > fleet.model.limits.t2 || s.q[i] > fleet.model.limits.q).length;
 			reasons.push({ ok: over < 0.1 * fits.length, text: `${over} of ${fits.length} wafers beyond the fleet model's limits (under 10 % passes).` });
 		}
-		const lastMatch = await k('fleet_matches').where({ chamber_id: ch.id, recipe_step_id: recipeStepId }).orderBy('run_at', 'desc').first('modified_z', 'flagged', 'run_at', 'window_from');
+		const lastMatch = await k('fleet_matches').where({ chamber_id: ch.id, recipe_step_id: recipeStepId }).orderBy('run_at', 'desc').first('modified_z', 'flagged', 'run_at', 'window_from', 'threshold');
 		if (lastMatch) {
 			const current = since === null || Number(lastMatch.window_from) >= since;
 			reasons.push({
 				ok: !lastMatch.flagged && current,
 				text: lastMatch.flagged
-					? `Apart from the fleet in the latest matching run (modified z ${lastMatch.modified_z.toFixed(1)} > ${MODIFIED_Z_THRESHOLD}).`
+					? `Apart from the fleet in the latest matching run (z ${lastMatch.modified_z.toFixed(1)} ≥ ${Number(lastMatch.threshold ?? 2.576).toFixed(2)}).`
 					: current
-						? `In family with the fleet in the latest matching run (modified z ${lastMatch.modified_z.toFixed(1)}).`
+						? `In family with the fleet in the latest matching run (z ${lastMatch.modified_z.toFixed(1)}).`
 						: 'The latest matching run still includes wafers from before the maintenance; run matching again later.'
 			});
 		} else reasons.push({ ok: false, text: 'Not yet compared with the fleet; run matching.' });

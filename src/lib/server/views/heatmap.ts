@@ -4,6 +4,7 @@
  * rollups only, never from the raw scores, so a 30-day window over a million wafer-steps stays one
  * indexed scan of at most chambers × steps × 720 rollup rows.
  */
+import { fleetRunSummary, type FleetRunSummary } from './fleet-view.ts';
 import type { Knex } from 'knex';
 import { z } from 'zod';
 import { RULE_LABELS, type AlarmRule } from '../alarms.ts';
@@ -102,6 +103,8 @@ export interface HeatmapView {
 	applied: { area: string | null; recipe: string | null; step: string | null; stepIds: number[] };
 	alarmsByAge: AlarmAges;
 	drifting: DriftingChamber[];
+	/** whether fleet matching ran for these steps at all (the drift list must not reassure otherwise) */
+	fleetRuns: FleetRunSummary;
 }
 
 export interface AlarmAges {
@@ -237,6 +240,7 @@ export async function getHeatmap(q: HeatmapQuery, ctx: { now: number; timeZone: 
 		filters: { areas, recipes },
 		applied: { area: q.area, recipe: q.recipe, step: q.step, stepIds: narrowed ? stepIds : [] },
 		alarmsByAge: alarmAges(alarms.filter((a) => !q.area || chamberIds.includes(a.chamberId)), ctx.now),
+		fleetRuns: await fleetRunSummary(narrowed ? stepIds : null, k),
 		drifting: fleet
 			.filter((f) => f.flagged && (!q.area || chamberIds.includes(f.chamberId)))
 			.sort((a, b) => b.modifiedZ - a.modifiedZ)

@@ -8,6 +8,8 @@ import type { Knex } from 'knex';
 import {
 	actinometryRatios,
 	ACTINOMETRY_RATIOS,
+	channelGrid,
+	contributionLimits,
 	contributions,
 	goldenZ,
 	identifyFeature,
@@ -15,6 +17,7 @@ import {
 	planActinometry,
 	rankContributions,
 	scoreWafer,
+	t2ContributionsUninformative,
 	waferLeakSignature,
 	type ContributionKind,
 	type LeakGas
@@ -38,9 +41,13 @@ export interface Contributor {
 	lines: { species: string; element: string; wavelengthNm: number; note: string }[];
 	/** the wafer's value in golden standard deviations from the golden mean (engine's goldenZ) */
 	z: number;
-	/** the gas a leak line points at (N₂/CN bands: air, He I: helium), null for other channels */
+	/** the gas a leak line points at (nitrogen features: air, He I: helium), null for other channels */
 	leakGas: LeakGas | null;
 	unit: string | null;
+	/** its RBC control limit at the model's α (Alcala & Qin 2011), null for complete decomposition */
+	limit: number | null;
+	/** value beyond its limit: this feature's contribution is unlikely on an in-control wafer */
+	significant: boolean;
 }
 
 /** An alarm as the wafer page lists it: the queue's fields it shows, with the latest acknowledgement. */
@@ -76,7 +83,16 @@ export interface WaferView {
 		k: number;
 		alpha: number;
 	} | null;
-	contributions: { kind: ContributionKind; primary: 't2' | 'q'; t2: Contributor[]; q: Contributor[] } | null;
+	contributions: {
+		kind: ContributionKind;
+		primary: 't2' | 'q';
+		t2: Contributor[];
+		q: Contributor[];
+		/** why there is no T² ranking (k = 1), or null */
+		t2Note: string | null;
+		/** α of the contribution limits (the model's) */
+		limitAlpha: number;
+	} | null;
 	spectrum: { wavelengthNm: number; feature: string; value: number; mean: number; sd: number; highlighted: boolean }[];
 	sensors: { feature: string; unit: string | null; value: number; mean: number; sd: number; z: number }[];
 	actinometry: { name: string; meaning: string; numerator: string; denominator: string; value: number; baseline: number; change: number }[];
@@ -165,27 +181,39 @@ export async function getWaferView(id: number, kind: 'rbc' | 'complete' = 'rbc',
 		const index = new Map(model.featureNames.map((f, j) => [f, j]));
 		const z = goldenZ(model, x);
 		const zOf = (j: number) => z[j];
-		const describe = (r: { feature: string; value: number; share: number }): Contributor => {
+		// Name a channel after a line only within its cell of this step's channel grid.
+		const grid = channelGrid(catalog.filter((f) => f.kind === 'oes').map((f) => f.wavelengthNm ?? f.name));
+		const limits = contributionLimits(model);
+		const describe = (stat: 't2' | 'q') => (r: { feature: string; value: number; share: number }): Contributor => {
 			const j = index.get(r.feature)!;
 			const f = byName.get(r.feature);
 			const isOes = f?.kind === 'oes' || (f === undefined && /oes/i.test(r.feature));
+			const name = f?.wavelengthNm != null ? `oes_${f.wavelengthNm}` : r.feature;
+			// limits hold for reconstruction-based contributions only
+			const limit = kind !== 'rbc' ? null : stat === 'q' ? limits.q[r.feature] : limits.t2;
 			return {
 				...r,
 				kind: f?.kind ?? 'unknown',
 				wavelengthNm: f?.wavelengthNm ?? null,
-				lines: isOes ? identifyFeature(f?.wavelengthNm != null ? `oes_${f.wavelengthNm}` : r.feature).slice(0, 2).map((l) => ({ species: l.species, element: l.element, wavelengthNm: l.wavelengthNm, note: l.note })) : [],
+				lines: isOes ? identifyFeature(name, grid).slice(0, 2).map((l) => ({ species: l.species, element: l.element, wavelengthNm: l.wavelengthNm, note: l.note })) : [],
 				z: zOf(j),
-				leakGas: isOes ? leakGasOf(r.feature) : null,
-				unit: f?.unit ?? null
+				leakGas: isOes ? leakGasOf(name, grid) : null,
+				unit: f?.unit ?? null,
+				limit,
+				significant: limit !== null && r.value > limit
 			};
 		};
 		const c = contributions(model, x, kind);
-		const primary = s.qRatio >= s.t2Ratio ? 'q' : 't2';
+		const t2Note = t2ContributionsUninformative(model);
+		// With k = 1 there is no T² ranking: the page shows Q's contributions and says why.
+		const primary = s.qRatio >= s.t2Ratio || t2Note ? 'q' : 't2';
 		view.contributions = {
 			kind,
 			primary,
-			t2: rankContributions(c.t2 ?? {}, TOP).map(describe),
-			q: rankContributions(c.q, TOP).map(describe)
+			t2: c.t2 ? rankContributions(c.t2, TOP).map(describe('t2')) : [],
+			q: rankContributions(c.q, TOP).map(describe('q')),
+			t2Note,
+			limitAlpha: limits.alpha
 		};
 		const lead = view.contributions[primary];
 		// Mark only channels that carry a visible part of the statistic (≥ 2 %), at most eight.
