@@ -9,6 +9,20 @@ const str = { type: 'string' };
 
 export const CAMPAIGN_PATHS: Record<string, PathItem> = {
 	'/api/qualifications': {
+		get: {
+			operationId: 'qualifications',
+			tags: ['Qualification'],
+			summary: 'The latest 100 qualification campaigns with their state and progress',
+			'x-lockstep-access': 'any signed-in role; a token with read',
+			responses: {
+				'200': answer('The campaigns, newest first.', {
+					type: 'object',
+					required: ['campaigns'],
+					properties: { campaigns: { type: 'array', items: { type: 'object', additionalProperties: true } } }
+				}),
+				...AUTH_ANSWERS
+			}
+		},
 		post: {
 			operationId: 'startQualification',
 			tags: ['Qualification'],
