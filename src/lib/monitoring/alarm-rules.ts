@@ -1,4 +1,4 @@
-import { driftChart, driftChartSd, ewmaLimitForArl, ratioScale, upperNormal, type DriftReference } from './drift';
+import { driftChart, driftChartSd, driftLevel, ewmaLimitForArl, ratioScale, upperNormal, type DriftReference } from './drift';
 
 /**
  * Lockstep's wafer alarm rules, designed around one number: B, the false alarms a chamber × recipe
@@ -12,9 +12,10 @@ import { driftChart, driftChartSd, ewmaLimitForArl, ratioScale, upperNormal, typ
  * - `run` (k of m): k of the last m wafers beyond the warning score z_w, z_w chosen so that a run
  *   completes in control at rate B/4 ÷ 2 per statistic (independent wafers, binomial count).
  *   Adapted from the Western Electric handbook's "2 of 3 beyond 2σ" zone tests (1956).
- * - `ewma` (drift): a one-sided EWMA of the normal scores above L·σ√(λ/(2−λ)), with L solved for an
- *   in-control ARL of 1/(B/4) wafers per statistic (Brook & Evans 1972 Markov chain), and σ widened by
- *   Zhang's (1998) factor for correlated wafers.
+ * - `ewma` (drift): a one-sided EWMA of the normal scores above centre + L·σ√(λ/(2−λ)), with L solved
+ *   for an in-control ARL of 1/(B/4) wafers per statistic (Brook & Evans 1972 Markov chain), centre
+ *   and σ from the cross-validated golden ratios (driftLevel), σ widened by Zhang's (1998) factor for
+ *   correlated wafers.
  *
  * Budget: B/4 + B/4 + B/2 = B (a slight overcount, since the rules' signals overlap). The scores are
  * Wilson–Hilferty normal scores of the ratios anchored at the limit ({@link ratioScale}).
@@ -178,11 +179,23 @@ export function evaluateRules(history: ScoredPoint[], fresh: ScoredPoint[], base
 	const all = [...history, ...fresh];
 	const offset = history.length;
 	const scales = { t2: ratioScale(baseline.shape.t2, baseline.alpha), q: ratioScale(baseline.shape.q, baseline.alpha) };
-	const scores = { t2: all.map((p) => scales.t2.score(p.t2Ratio)), q: all.map((p) => scales.q.score(p.qRatio)) };
+	// Standardise each statistic's scores on its in-control level out of sample (driftLevel of the
+	// cross-validated golden mean ratio): centre 0 and spread 1 when the limit is calibrated; when it
+	// is not (a limit too tight for the golden set's size), every rule judges against what the golden
+	// wafers showed out of sample rather than against the limit's nominal α.
+	const level = (stat: 't2' | 'q') => {
+		const ref = baseline.drift?.[stat];
+		return ref && ref.mean > 0 ? driftLevel(ref.mean, baseline.shape[stat], baseline.alpha) : { centre: 0, spread: 1 };
+	};
+	const levels = { t2: level('t2'), q: level('q') };
+	const standard = (stat: 't2' | 'q') => (p: ScoredPoint) => (scales[stat].score(ratioOf(p, stat)) - levels[stat].centre) / levels[stat].spread;
+	const scores = { t2: all.map(standard('t2')), q: all.map(standard('q')) };
 	const charts: { stat: 't2' | 'q'; chart: ReturnType<typeof driftChart> }[] = [];
 	if (policy.ewmaEnabled && baseline.drift) {
 		for (const stat of STATS) {
-			const { sd } = driftChartSd(baseline.drift[stat], baseline.drift.n, policy.ewmaLambda);
+			const ref = baseline.drift[stat];
+			if (!ref || !(ref.mean > 0)) continue;
+			const { sd } = driftChartSd(ref, baseline.drift.n, policy.ewmaLambda);
 			charts.push({ stat, chart: driftChart(scores[stat], { lambda: policy.ewmaLambda, L: design.driftL, sd }) });
 		}
 	}

@@ -94,6 +94,33 @@ export function ratioScale(h: number, alpha: number): RatioScale {
 }
 
 /**
+ * The in-control centre and spread of the scores of a ratio whose in-control mean is `mean` (the
+ * cross-validated golden wafers' mean ratio), under the same matched χ² (shape h). With
+ * r = (mean/h)·χ²_h, the score is z = (κ·(χ²_h/h)^{1/3} − (1 − v))/√v with κ = (mean·χ²_h(1 − α)/h)^{1/3}
+ * and v = 2/(9h); by Wilson & Hilferty (1931) (χ²_h/h)^{1/3} ≈ N(1 − v, v), so
+ *
+ *   centre = (κ − 1)(1 − v)/√v,  spread = κ.
+ *
+ * When the limit is calibrated (the limit is the (1 − α) quantile of the ratio's own distribution)
+ * κ = 1: centre 0, spread 1. When it is not (a limit from large-sample theory on a small golden set),
+ * the drift chart still centres on the level the golden wafers showed out of sample — which is what
+ * the drift rule's in-control run length depends on (an EWMA's ARL falls steeply with an offset).
+ *
+ * @param mean in-control mean ratio (> 0)
+ * @param h shape
+ * @param alpha the limit's α
+ * @returns centre and spread in score units
+ * @throws RangeError on a bad mean, h or α
+ * @example driftLevel(3 / 11.3449, 3, 0.01) // → { centre: ≈ 0, spread: ≈ 1 } (χ²_3 at 0.99 is 11.3449)
+ */
+export function driftLevel(mean: number, h: number, alpha: number): { centre: number; spread: number } {
+	if (!(mean > 0 && Number.isFinite(mean))) throw new RangeError(`the mean must be finite and > 0, got ${mean}`);
+	const v = 2 / (9 * h);
+	const kappa = Math.cbrt((mean * chiSquareUpper(alpha, h)) / h);
+	return { centre: ((kappa - 1) * (1 - v)) / Math.sqrt(v), spread: kappa };
+}
+
+/**
  * In-control average run length of a one-sided (upper) EWMA chart on N(0, 1) data with steady-state
  * limit L·√(λ/(2 − λ)), by the Markov-chain approximation: the EWMA's range [−B, h] is cut into
  * `states` cells, transitions between cell centres come from the normal CDF, values below −B stay in
@@ -104,11 +131,12 @@ export function ratioScale(h: number, alpha: number): RatioScale {
  * @param lambda λ, 0 < λ ≤ 1
  * @param L limit width in σ_EWMA units (> 0)
  * @param states cells (default 161)
+ * @param cap observations are min(Z, cap) (default: none; see {@link DRIFT_SCORE_CAP})
  * @returns the ARL in observations
  * @throws RangeError on a bad λ, L or cell count
  * @example ewmaUpperArl(1, 3) // → 1/P(Z > 3) ≈ 741 (a Shewhart chart), to about 1 %
  */
-export function ewmaUpperArl(lambda: number, L: number, states = 161): number {
+export function ewmaUpperArl(lambda: number, L: number, states = 161, cap = Infinity): number {
 	if (!(lambda > 0 && lambda <= 1)) throw new RangeError(`λ must lie in (0, 1], got ${lambda}`);
 	if (!(L > 0)) throw new RangeError(`L must be > 0, got ${L}`);
 	if (!(Number.isInteger(states) && states >= 11)) throw new RangeError(`states must be an integer ≥ 11, got ${states}`);
@@ -117,7 +145,8 @@ export function ewmaUpperArl(lambda: number, L: number, states = 161): number {
 	const bottom = -Math.max(4, L) * s; // the EWMA almost never sits below −4σ_EWMA
 	const w = (top - bottom) / states;
 	const c = Array.from({ length: states }, (_, i) => bottom + (i + 0.5) * w);
-	const cdf = (x: number) => 1 - normalTail(x);
+	// The observations are min(Z, cap): all the mass above the cap sits at the cap.
+	const cdf = (x: number) => (x >= cap ? 1 : 1 - normalTail(x));
 	// A = I − P, solved for A·ARL = 1 by Gaussian elimination with partial pivoting.
 	const A = c.map((ci, i) =>
 		c.map((cj, j) => {
@@ -150,29 +179,40 @@ export function ewmaUpperArl(lambda: number, L: number, states = 161): number {
 	return x[start];
 }
 
+/**
+ * Scores enter the drift chart capped at 3: one wafer far out is the gross rule's business, and a
+ * heavy right tail (new-wafer T² follows an F, not a χ²; Q limits from a small golden set are often
+ * too tight) would otherwise let single wafers trip the EWMA (one score of 6 moves it by 1.2 at
+ * λ = 0.2, nearly its whole limit). The cap is in the ARL computation too. Bounding each observation's
+ * influence is the idea of the robust CUSUM of Lucas & Crosier (1982, Technometrics 24:199) and of
+ * the Huber-type EWMA; the value 3 is common practice (a Shewhart 3σ point).
+ */
+export const DRIFT_SCORE_CAP = 3;
+
 const limitCache = new Map<string, number>();
 
 /**
  * The limit width L of a one-sided EWMA on N(0, 1) data whose in-control ARL is `arl`, found by
- * bisection on {@link ewmaUpperArl} (the ARL grows monotonically with L). Cached per (λ, ARL).
+ * bisection on {@link ewmaUpperArl} (the ARL grows monotonically with L). Cached per (λ, ARL, cap).
  *
  * @param lambda λ, 0 < λ ≤ 1
  * @param arl target in-control ARL (≥ 10)
+ * @param cap observations capped at this score (default {@link DRIFT_SCORE_CAP}; Infinity: none)
  * @returns L to 1e-4
  * @throws RangeError on a bad λ or ARL
- * @example ewmaLimitForArl(0.2, 500) // → ≈ 2.70 (two-sided charts need ≈ 2.86 for ARL 500,
+ * @example ewmaLimitForArl(0.2, 500, Infinity) // → ≈ 2.71 (two-sided charts need ≈ 2.86 for ARL 500,
  *   Lucas & Saccucci 1990 table 3; a one-sided chart signals half as often at the same L)
  */
-export function ewmaLimitForArl(lambda: number, arl: number): number {
+export function ewmaLimitForArl(lambda: number, arl: number, cap = DRIFT_SCORE_CAP): number {
 	if (!(arl >= 10 && Number.isFinite(arl))) throw new RangeError(`the target ARL must be ≥ 10, got ${arl}`);
-	const key = `${lambda}:${arl}`;
+	const key = `${lambda}:${arl}:${cap}`;
 	const hit = limitCache.get(key);
 	if (hit !== undefined) return hit;
 	let lo = 0.5;
 	let hi = 6;
 	while (hi - lo > 1e-4) {
 		const mid = (lo + hi) / 2;
-		if (ewmaUpperArl(lambda, mid) < arl) lo = mid;
+		if (ewmaUpperArl(lambda, mid, 161, cap) < arl) lo = mid;
 		else hi = mid;
 	}
 	const L = (lo + hi) / 2;
@@ -210,16 +250,22 @@ export function driftChartSd(ref: DriftReference | undefined, n: number | undefi
 }
 
 /**
- * The drift chart of a series of normal scores: {@link ewma} with centre 0, σ `sd` and time-varying
- * limits (Lucas & Saccucci 1990); only the upper limit matters to the alarm rules.
+ * The drift chart of a series of normal scores: {@link ewma} of the scores capped at centre + cap·σ
+ * ({@link DRIFT_SCORE_CAP}), with centre `centre` (default 0), σ `sd` and time-varying limits (Lucas &
+ * Saccucci 1990); only the upper limit matters to the alarm rules.
  *
  * @param scores normal scores in time order
  * @param o λ, L and the scores' σ
  * @returns the chart
  * @example driftChart([0, 0, 3], { lambda: 0.2, L: 3, sd: 1 }).values[2] // → 0.6
  */
-export function driftChart(scores: ArrayLike<number>, o: { lambda: number; L: number; sd: number }): EwmaChart {
-	return ewma(scores, { lambda: o.lambda, L: o.L, mean: 0, sd: o.sd });
+export function driftChart(scores: ArrayLike<number>, o: { lambda: number; L: number; sd: number; centre?: number; cap?: number }): EwmaChart {
+	const centre = o.centre ?? 0;
+	const cap = o.cap ?? DRIFT_SCORE_CAP;
+	// The cap applies to the standardised score: centre + cap·σ in the chart's units.
+	const top = centre + cap * o.sd;
+	const capped = Float64Array.from(scores, (z) => Math.min(z, top));
+	return ewma(capped, { lambda: o.lambda, L: o.L, mean: centre, sd: o.sd });
 }
 
 /** The normal quantile for an upper-tail probability (re-exported for the rules). */

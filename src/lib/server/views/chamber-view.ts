@@ -6,7 +6,7 @@
 import type { Knex } from 'knex';
 import { forecastCrossing, type CrossingForecast } from '../../monitoring/index.ts';
 import { designRules } from '../../monitoring/alarm-rules.ts';
-import { driftChart, driftChartSd, ratioScale } from '../../monitoring/drift.ts';
+import { driftChart, driftChartSd, driftLevel, ratioScale } from '../../monitoring/drift.ts';
 import { ruleBaselineOf } from '../scoring.ts';
 import type { EwmaReference } from '../baselines.ts';
 import { db } from '../db.ts';
@@ -202,10 +202,13 @@ export async function getChamberSeries(q: { chamberId: number; recipeStepId: num
 			// the line crosses its limit exactly when the rule fires).
 			const scale = ratioScale(rb.shape[key], rb.alpha);
 			const series = seg.map((r) => scale.score(r[field] as number));
-			const { sd, inflation } = driftChartSd(m, ref?.n, policy.ewmaLambda);
+			if (!(m.mean > 0)) continue;
+			const level = driftLevel(m.mean, rb.shape[key], rb.alpha);
+			const { sd: widened, inflation } = driftChartSd(m, ref?.n, policy.ewmaLambda);
+			const sd = widened * level.spread;
 			if (s1 === n) varianceFactor[key] = inflation?.factor ?? null;
 			if (s1 === n && inflation && ref?.n) acf = { source: ref.acfSource ?? 'golden', n: ref.n };
-			const chart = driftChart(series, { lambda: policy.ewmaLambda, L: design.driftL, sd });
+			const chart = driftChart(series, { lambda: policy.ewmaLambda, L: design.driftL, sd, centre: level.centre });
 			for (let i = 0; i < seg.length; i++) {
 				out[s0 + i] = scale.ratio(chart.values[i]);
 				up[s0 + i] = scale.ratio(chart.upper[i]);
