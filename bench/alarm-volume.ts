@@ -9,6 +9,7 @@
  * budget, and the wafers from the fault's onset to a new alarm. Uses only APIs that predate the alarm
  * episodes, so the same script measures the rules before and after (see the monitoring README).
  */
+import { execFileSync } from 'node:child_process';
 import fs from 'node:fs';
 import os from 'node:os';
 import path from 'node:path';
@@ -34,10 +35,13 @@ async function once(seed: number, o: { chambers: number; hours: number; perHour:
 		const fab = await buildVolumeFab(k, { chambers: o.chambers, steps: [12, 40], wafersPerHour: o.perHour, hours: o.hours, golden: 100, seed }, [a, b]);
 		const judged = await runHours(k, fab, o.hours, o.perHour);
 		const counts = await alarmCounts(k);
+		// Under the old rules one live alarm per chamber × step × rule absorbed every later violation, so
+		// the alarms opened saturate; the wafer-steps the rules flagged say how often they fired.
+		const flagged = Number((await k('alarms').sum({ n: 'wafer_count' }).first())?.n ?? 0);
 		const total = Object.values(counts).reduce((x, y) => x + y, 0);
 		const policy = (await getSetting('alarm_policy', k)) as { falseAlarmsPer10k?: number };
 		const fault = await faultAfterFalseAlarm(k, fab, { chamberId: fab.chamberIds[0], stepId: fab.stepIds[1], userId: a, shift: 0.5, maxWafers: 60, wafersPerHour: o.perHour });
-		return { judged, counts, total, budget: policy.falseAlarmsPer10k ?? null, fault, seconds: (performance.now() - t0) / 1000 };
+		return { judged, counts, total, flagged, budget: policy.falseAlarmsPer10k ?? null, fault, seconds: (performance.now() - t0) / 1000 };
 	} finally {
 		await closeDb();
 		fs.rmSync(dir, { recursive: true, force: true });
@@ -50,21 +54,35 @@ async function main() {
 	const seed = arg('seed', 1);
 	let judged = 0;
 	let total = 0;
+	let flagged = 0;
 	const byRule: Record<string, number> = {};
 	const faults: (number | null)[] = [];
+	if (process.argv.includes('--json')) {
+		console.log(JSON.stringify(await once(seed, o)));
+		return;
+	}
 	for (let r = 0; r < runs; r++) {
-		const x = await once(seed + 1000 * r, o);
+		// Each run in its own process: the server modules cache models by baseline id, and every run's
+		// fresh database numbers its baselines from 1 again.
+		const out = execFileSync(
+			process.execPath,
+			['--import', 'tsx', process.argv[1], '--json', '--seed', String(seed + 1000 * r), '--chambers', String(o.chambers), '--hours', String(o.hours), '--per-hour', String(o.perHour)],
+			{ encoding: 'utf8', maxBuffer: 1 << 26 }
+		);
+		const x = JSON.parse(out.trim().split('\n').pop()!) as Awaited<ReturnType<typeof once>>;
 		judged += x.judged;
 		total += x.total;
+		flagged += x.flagged;
 		for (const [rule, n] of Object.entries(x.counts)) byRule[rule] = (byRule[rule] ?? 0) + n;
 		faults.push(x.fault.wafers);
 		console.log(
 			`run ${r + 1}: ${x.judged.toLocaleString('en')} in-control wafer-steps (${o.chambers} chambers × 2 steps × ${o.hours} h × ${o.perHour}/h), alarms ${x.total} ${JSON.stringify(x.counts)}, ` +
 				`budget ${x.budget ?? 'none (old policy)'} per 10,000; fault (3 features +0.5) → new alarm after ${x.fault.wafers ?? 'none within 60'} wafers ` +
-				`(opened: ${JSON.stringify(x.fault.openedAfter)}; acknowledged as FA-LIMIT first: ${x.fault.acknowledged.length}; fault worst ratios ${x.fault.ratios.slice(0, 5).map((v) => v.toFixed(2)).join(', ')}…) in ${x.seconds.toFixed(0)} s`
+				`(opened: ${JSON.stringify(x.fault.openedAfter)}; acknowledged as FA-LIMIT first: ${x.fault.acknowledged.length}, live at onset: ${x.fault.liveRulesAtOnset.join('+') || 'none'}; fault worst ratios ${x.fault.ratios.slice(0, 5).map((v) => v.toFixed(2)).join(', ')}…) in ${x.seconds.toFixed(0)} s`
 		);
 	}
 	console.log(`\nall runs: ${total} alarms on ${judged.toLocaleString('en')} in-control wafer-steps = ${((total / judged) * 10_000).toFixed(2)} per 10,000 ${JSON.stringify(byRule)}`);
+	console.log(`wafer-steps flagged by a rule (alarm wafer counts): ${flagged} = ${((flagged / judged) * 10_000).toFixed(1)} per 10,000`);
 	console.log(`fault → new alarm (wafers after onset): ${faults.map((f) => f ?? 'none').join(', ')}`);
 }
 

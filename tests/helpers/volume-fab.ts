@@ -171,16 +171,17 @@ export async function alarmCounts(k: Knex): Promise<Record<string, number>> {
 }
 
 /**
- * The fault check: on one chamber × step, every live alarm is acknowledged as a statistical false
- * alarm (first a gross wafer is planted when the chamber has none, so that it has a false alarm), a
- * few in-control wafers follow, then a step fault on 3 features starts. Returns the wafers from the
+ * The fault check: on one chamber × step, a short excursion is planted (a gross wafer, then 6 wafers
+ * a little off on features 0–2) and every live alarm is acknowledged as a statistical false alarm;
+ * 5 in-control wafers follow, then a step fault on features 4–6 starts, while those acknowledged
+ * alarms are still live. Returns the wafers from the
  * fault's onset to the first alarm opened at or after it (null: none within `maxWafers`).
  */
 export async function faultAfterFalseAlarm(
 	k: Knex,
 	fab: VolumeFab,
 	o: { chamberId: number; stepId: number; userId: string; shift: number; maxWafers: number; wafersPerHour: number }
-): Promise<{ wafers: number | null; acknowledged: number[]; openedAfter: { id: number; rule: string }[]; ratios: number[] }> {
+): Promise<{ wafers: number | null; acknowledged: number[]; liveRulesAtOnset: string[]; openedAfter: { id: number; rule: string }[]; ratios: number[] }> {
 	const s = fab.streams.get(`${o.chamberId}:${o.stepId}`)!;
 	const spacing = HOUR / o.wafersPerHour;
 	const one = async (row: Float64Array) => {
@@ -192,23 +193,24 @@ export async function faultAfterFalseAlarm(
 			return ws[0];
 		});
 	};
-	const liveOf = () => k('alarms').where({ chamber_id: o.chamberId, recipe_step_id: o.stepId }).whereIn('state', ['open', 'acknowledged']).pluck('id');
-	if ((await liveOf()).length === 0) {
-		const spike = nextRow(s);
-		for (let j = 0; j < 3; j++) spike[j] += 3; // a gross wafer: Q far beyond its limit
-		await one(spike);
-	}
+	// The false alarm: one gross wafer, then a few wafers a little off on other features (enough for
+	// the run and drift rules too); the engineer acknowledges every live alarm as a statistical false alarm.
+	const spike = nextRow(s);
+	for (let j = 0; j < 3; j++) spike[j] += 3;
+	await one(spike);
+	for (let i = 0; i < 6; i++) await one(nextRow(s, { features: [0, 1, 2], by: 0.5 }));
 	const open = await k('alarms').where({ chamber_id: o.chamberId, recipe_step_id: o.stepId, state: 'open' }).pluck('id');
 	if (open.length) await acknowledgeAlarms(k, { alarmIds: open, userId: o.userId, causeCode: 'FA-LIMIT', disposition: 'continue', comment: 'Statistical false alarm, neighbours in family.' });
 	for (let i = 0; i < 5; i++) await one(nextRow(s));
 	const before = new Set((await k('alarms').pluck('id')) as number[]);
+	const liveRulesAtOnset = (await k('alarms').where({ chamber_id: o.chamberId, recipe_step_id: o.stepId, state: 'acknowledged' }).pluck('rule')) as string[];
 	const ratios: number[] = [];
 	for (let i = 1; i <= o.maxWafers; i++) {
 		const w = await one(nextRow(s, { features: [4, 5, 6], by: o.shift }));
 		ratios.push(Number((await k('scores').where({ wafer_step_id: w.id }).first('worst_ratio')).worst_ratio));
 		const opened = await k('alarms').where({ chamber_id: o.chamberId, recipe_step_id: o.stepId }).select('id', 'rule');
 		const fresh = opened.filter((a) => !before.has(a.id));
-		if (fresh.length) return { wafers: i, acknowledged: open, openedAfter: fresh, ratios };
+		if (fresh.length) return { wafers: i, acknowledged: open, liveRulesAtOnset, openedAfter: fresh, ratios };
 	}
-	return { wafers: null, acknowledged: open, openedAfter: [], ratios };
+	return { wafers: null, acknowledged: open, liveRulesAtOnset, openedAfter: [], ratios };
 }

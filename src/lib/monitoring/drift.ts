@@ -1,5 +1,5 @@
 import erfc from '@stdlib/math-base-special-erfc';
-import { chiSquareUpper, normalUpper } from './quantiles';
+import { normalUpper } from './quantiles';
 import { ewma, type EwmaChart } from './ewma';
 import { ewmaInflation, type EwmaInflation } from './ewma-autocorrelation';
 
@@ -34,90 +34,88 @@ export function ratioShape(mean: number, sd: number): number {
 	return Math.min(200, Math.max(1, (2 * mean * mean) / (sd * sd)));
 }
 
-/**
- * Normal score of a statistic/limit ratio by the Wilson–Hilferty cube-root transform, anchored at
- * the limit. With the statistic ≈ g·χ²_h and the limit its (1 − α) quantile g·χ²_h(1 − α), the ratio
- * r corresponds to χ² = r·χ²_h(1 − α), and
- *
- *   z = [ (r·χ²_h(1 − α)/h)^{1/3} − (1 − 2/(9h)) ] / √(2/(9h))
- *
- * is ≈ N(0, 1) in control. Source: Wilson & Hilferty (1931) "The distribution of chi-square",
- * PNAS 17:684. Anchoring at the limit (not at an estimated mean and sd) means that whatever h is
- * used, r = 1 maps to z ≈ z_{1−α}: the limit's own calibration carries over, and an error in h only
- * bends the scale away from the limit (measured in tests/unit/monitoring/drift.test.ts).
- *
- * @param ratio statistic ÷ limit (≥ 0)
- * @param h degrees of freedom of the matched χ² (> 0), e.g. from {@link ratioShape}
- * @param alpha the limit's α (0 < α < 1)
- * @returns the normal score
- * @throws RangeError on a negative or non-finite ratio, a bad h or α
- * @example ratioScore(1, 3, 0.01) // → ≈ 2.33 (χ²_3 at 0.99 is 11.34; the cube root gives 2.33)
- */
-export function ratioScore(ratio: number, h: number, alpha: number): number {
-	if (!(ratio >= 0 && Number.isFinite(ratio))) throw new RangeError(`the ratio must be finite and ≥ 0, got ${ratio}`);
-	return scoreOf(ratio, h, chiSquareUpper(alpha, h));
+/** In-control moments of a ratio series: mean, sd, skewness (third standardised moment) and how many values. */
+export interface RatioMoments {
+	mean: number;
+	sd: number;
+	skew: number;
+	n: number;
 }
 
-/** ratioScore with the χ² quantile precomputed (hot loop). */
-function scoreOf(ratio: number, h: number, quantile: number): number {
-	if (!(h > 0)) throw new RangeError(`h must be > 0, got ${h}`);
-	const v = 2 / (9 * h);
-	return (Math.cbrt((ratio * quantile) / h) - (1 - v)) / Math.sqrt(v);
-}
-
-/** A ratio → score map for one statistic of one baseline. */
-export interface RatioScale {
+/** A shifted, scaled χ²: X ≈ a + g·χ²_h. */
+export interface ShiftedChiSquare {
+	a: number;
+	g: number;
 	h: number;
-	alpha: number;
-	score: (ratio: number) => number;
-	/** The inverse: the ratio whose score is z (0 below the score of a zero ratio). */
-	ratio: (z: number) => number;
 }
 
 /**
- * The score map of one statistic: {@link ratioScore} with the χ² quantile computed once.
- * @param h shape (> 0)
- * @param alpha the limit's α
- * @returns the map
- * @throws RangeError on a bad h or α
- * @example ratioScale(3, 0.01).score(1) // → ≈ 2.33
+ * Moments (mean, sd, skewness) of a series; NaN values are skipped.
+ * @throws RangeError on fewer than 3 values or a zero spread
+ * @example ratioMoments([1, 2, 3, 10]).skew // → ≈ 1.05 (population third moment over sd³ with the n − 1 sd)
  */
-export function ratioScale(h: number, alpha: number): RatioScale {
-	const quantile = chiSquareUpper(alpha, h);
-	const v = 2 / (9 * h);
+export function ratioMoments(xs: ArrayLike<number>): RatioMoments {
+	let n = 0;
+	let sum = 0;
+	for (let i = 0; i < xs.length; i++) if (!Number.isNaN(xs[i])) (n++, (sum += xs[i]));
+	if (n < 3) throw new RangeError(`moments need at least 3 values, got ${n}`);
+	const mean = sum / n;
+	let m2 = 0;
+	let m3 = 0;
+	for (let i = 0; i < xs.length; i++) {
+		if (Number.isNaN(xs[i])) continue;
+		const d = xs[i] - mean;
+		m2 += d * d;
+		m3 += d * d * d;
+	}
+	const sd = Math.sqrt(m2 / (n - 1));
+	if (!(sd > 0)) throw new RangeError('the series does not vary');
+	return { mean, sd, skew: m3 / n / sd ** 3, n };
+}
+
+/**
+ * Three-moment fit of a shifted, scaled χ² to a ratio's in-control mean, sd and skewness:
+ * h = 8/skew², g = sd/√(2h), a = mean − g·h (a + g·χ²_h has exactly these three moments). The
+ * three-moment χ² approximation of quadratic forms is Pearson's (1959, "Note on an approximation to
+ * the distribution of non-central χ²", Biometrika 46:364), used by Imhof (1961, Biometrika 48:419)
+ * for Q-like statistics. Why three moments: the out-of-sample Q of a new wafer is more skewed than a
+ * χ² with its mean and sd (the plane's estimation error scales with the wafer's scores), so a
+ * two-moment fit puts far too little probability in the tail — measured on the volume fab, 6e-4
+ * against 3e-5 beyond a score of 4 (tests/unit/monitoring/drift.test.ts and the README).
+ * With fewer than 200 values the skewness is too noisy (its sd ≈ √(6/n)) and the two-moment fit
+ * (a = 0, h = 2·mean²/sd², Box 1954) is used. h is clipped to [1, 200].
+ *
+ * @param m moments of the in-control series (mean > 0, sd > 0)
+ * @returns a, g, h
+ * @throws RangeError on a non-positive mean or sd
+ * @example shiftedChiSquare({ mean: 3, sd: Math.sqrt(6), skew: Math.sqrt(8 / 3), n: 500 }) // → { a: ≈ 0, g: ≈ 1, h: ≈ 3 }
+ */
+export function shiftedChiSquare(m: RatioMoments): ShiftedChiSquare {
+	if (!(m.mean > 0 && Number.isFinite(m.mean))) throw new RangeError(`the mean must be finite and > 0, got ${m.mean}`);
+	if (!(m.sd > 0 && Number.isFinite(m.sd))) throw new RangeError(`the sd must be finite and > 0, got ${m.sd}`);
+	if (m.n < 200 || !(m.skew > 0)) {
+		const h = ratioShape(m.mean, m.sd);
+		return { a: 0, g: m.mean / h, h };
+	}
+	const h = Math.min(200, Math.max(1, 8 / (m.skew * m.skew)));
+	const g = m.sd / Math.sqrt(2 * h);
+	return { a: m.mean - g * h, g, h };
+}
+
+/**
+ * Normal score of a ratio under its fitted shifted χ², by the Wilson–Hilferty cube root:
+ * z = [ (((r − a)/g)/h)^{1/3} − (1 − 2/(9h)) ] / √(2/(9h)) (Wilson & Hilferty 1931); ≈ N(0, 1) in
+ * control. Ratios below a score as a ratio at a. With `inverse`, the ratio of a score.
+ *
+ * @example scoreScale({ a: 0, g: 1, h: 3 }).score(3 * 0.9259) // → ≈ 0 (the cube root's centre)
+ */
+export function scoreScale(f: ShiftedChiSquare): { score: (ratio: number) => number; ratio: (z: number) => number } {
+	const v = 2 / (9 * f.h);
+	const sv = Math.sqrt(v);
 	return {
-		h,
-		alpha,
-		score: (r) => scoreOf(Math.max(0, r), h, quantile),
-		ratio: (z) => (h / quantile) * Math.max(0, 1 - v + z * Math.sqrt(v)) ** 3
+		score: (r) => (Math.cbrt(Math.max(0, (r - f.a) / f.g) / f.h) - (1 - v)) / sv,
+		ratio: (z) => f.a + f.g * f.h * Math.max(0, 1 - v + z * sv) ** 3
 	};
-}
-
-/**
- * The in-control centre and spread of the scores of a ratio whose in-control mean is `mean` (the
- * cross-validated golden wafers' mean ratio), under the same matched χ² (shape h). With
- * r = (mean/h)·χ²_h, the score is z = (κ·(χ²_h/h)^{1/3} − (1 − v))/√v with κ = (mean·χ²_h(1 − α)/h)^{1/3}
- * and v = 2/(9h); by Wilson & Hilferty (1931) (χ²_h/h)^{1/3} ≈ N(1 − v, v), so
- *
- *   centre = (κ − 1)(1 − v)/√v,  spread = κ.
- *
- * When the limit is calibrated (the limit is the (1 − α) quantile of the ratio's own distribution)
- * κ = 1: centre 0, spread 1. When it is not (a limit from large-sample theory on a small golden set),
- * the drift chart still centres on the level the golden wafers showed out of sample — which is what
- * the drift rule's in-control run length depends on (an EWMA's ARL falls steeply with an offset).
- *
- * @param mean in-control mean ratio (> 0)
- * @param h shape
- * @param alpha the limit's α
- * @returns centre and spread in score units
- * @throws RangeError on a bad mean, h or α
- * @example driftLevel(3 / 11.3449, 3, 0.01) // → { centre: ≈ 0, spread: ≈ 1 } (χ²_3 at 0.99 is 11.3449)
- */
-export function driftLevel(mean: number, h: number, alpha: number): { centre: number; spread: number } {
-	if (!(mean > 0 && Number.isFinite(mean))) throw new RangeError(`the mean must be finite and > 0, got ${mean}`);
-	const v = 2 / (9 * h);
-	const kappa = Math.cbrt((mean * chiSquareUpper(alpha, h)) / h);
-	return { centre: ((kappa - 1) * (1 - v)) / Math.sqrt(v), spread: kappa };
 }
 
 /**

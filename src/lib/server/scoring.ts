@@ -8,7 +8,8 @@
  */
 import type { Knex } from 'knex';
 import { contributions, rankContributions, scoreBatch, type BaselineModel } from '../monitoring/index.ts';
-import { ratioShape } from '../monitoring/drift.ts';
+import { shiftedChiSquare, type ShiftedChiSquare } from '../monitoring/drift.ts';
+import { chiSquareUpper } from '../monitoring/quantiles.ts';
 import { designRules, type RuleBaseline } from '../monitoring/alarm-rules.ts';
 import { raiseOrExtendAll, evaluateRules, quietPoints, settleEpisodes, type AlarmRule, type ScoredPoint, type Violation } from './alarms.ts';
 import { getModel, type EwmaReference } from './baselines.ts';
@@ -169,21 +170,23 @@ async function scoreGroup(
 }
 
 /**
- * What the alarm rules need of a baseline: its α, the χ² shape of each ratio (moment-matched to the
- * cross-validated golden ratios; without them, k for T² and 2 for Q) and the ACF for the drift
- * charts (none: the drift rule is off for this baseline, as before).
+ * What the alarm rules need of a baseline: each ratio's in-control law (a shifted χ² fitted to the
+ * out-of-sample moments the baseline kept, {@link shiftedChiSquare}; a baseline with mean and sd only
+ * gets the two-moment fit; one with no reference, a χ² with k (T²) or 2 (Q) degrees of freedom whose
+ * (1 − α) quantile is the limit) and the ACF for the drift charts (none: the drift rule is off for this
+ * baseline, as before).
  */
 export function ruleBaselineOf(model: Pick<BaselineModel, 'alpha' | 'k'>, ref: EwmaReference | null): RuleBaseline {
-	const shape = (m: { mean: number; sd: number } | undefined, fallback: number) => {
+	const law = (m: EwmaReference['t2'] | undefined, fallbackH: number): ShiftedChiSquare => {
 		try {
-			return m ? ratioShape(m.mean, m.sd) : fallback;
+			if (m) return shiftedChiSquare(m.moments ?? { mean: m.mean, sd: m.sd, skew: 0, n: 0 });
 		} catch {
-			return fallback;
+			// a degenerate reference: the limit's own law below
 		}
+		return { a: 0, g: 1 / chiSquareUpper(model.alpha, fallbackH), h: fallbackH };
 	};
 	return {
-		alpha: model.alpha,
-		shape: { t2: shape(ref?.t2, Math.max(1, model.k)), q: shape(ref?.q, 2) },
+		shape: { t2: law(ref?.t2, Math.max(1, model.k)), q: law(ref?.q, 2) },
 		drift: ref ? { t2: ref.t2, q: ref.q, n: ref.n } : null
 	};
 }

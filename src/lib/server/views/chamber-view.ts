@@ -6,7 +6,7 @@
 import type { Knex } from 'knex';
 import { forecastCrossing, type CrossingForecast } from '../../monitoring/index.ts';
 import { designRules } from '../../monitoring/alarm-rules.ts';
-import { driftChart, driftChartSd, driftLevel, ratioScale } from '../../monitoring/drift.ts';
+import { driftChart, driftChartSd, scoreScale } from '../../monitoring/drift.ts';
 import { ruleBaselineOf } from '../scoring.ts';
 import type { EwmaReference } from '../baselines.ts';
 import { db } from '../db.ts';
@@ -200,15 +200,12 @@ export async function getChamberSeries(q: { chamberId: number; recipeStepId: num
 			// The drift statistic the alarm rules use (EWMA of normal scores, alarm-rules.ts), drawn
 			// back in ratio units so that it shares the chart's axis with the wafers (the map is monotone:
 			// the line crosses its limit exactly when the rule fires).
-			const scale = ratioScale(rb.shape[key], rb.alpha);
+			const scale = scoreScale(rb.shape[key]);
 			const series = seg.map((r) => scale.score(r[field] as number));
-			if (!(m.mean > 0)) continue;
-			const level = driftLevel(m.mean, rb.shape[key], rb.alpha);
-			const { sd: widened, inflation } = driftChartSd(m, ref?.n, policy.ewmaLambda);
-			const sd = widened * level.spread;
+			const { sd, inflation } = driftChartSd(m, ref?.n, policy.ewmaLambda);
 			if (s1 === n) varianceFactor[key] = inflation?.factor ?? null;
 			if (s1 === n && inflation && ref?.n) acf = { source: ref.acfSource ?? 'golden', n: ref.n };
-			const chart = driftChart(series, { lambda: policy.ewmaLambda, L: design.driftL, sd, centre: level.centre });
+			const chart = driftChart(series, { lambda: policy.ewmaLambda, L: design.driftL, sd });
 			for (let i = 0; i < seg.length; i++) {
 				out[s0 + i] = scale.ratio(chart.values[i]);
 				up[s0 + i] = scale.ratio(chart.upper[i]);
