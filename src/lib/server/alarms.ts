@@ -93,7 +93,9 @@ export function supersedeReason(
 	policy: EpisodePolicy = DEFAULT_EPISODE
 ): string | null {
 	if (live.state !== 'acknowledged') return null;
-	if (ackCause?.category === 'false_alarm' && (live.acknowledged_at === null || v.at >= Number(live.acknowledged_at)))
+	// Any violation scored after the acknowledgement counts, whatever its process time: evidence the
+	// engineer had not seen when calling the episode a false alarm.
+	if (ackCause?.category === 'false_alarm')
 		return `acknowledged as a false alarm (${ackCause.code}); a violation after that acknowledgement is a new episode`;
 	const ackRatio = live.ack_ratio === null ? null : Number(live.ack_ratio);
 	if (ackRatio !== null && ackRatio > 0 && v.ratio >= policy.reopenFactor * ackRatio)
