@@ -25,8 +25,8 @@ export type AlarmRule = 'single' | 'run' | 'ewma' | 'fleet';
 export type WaferRule = Exclude<AlarmRule, 'fleet'>;
 export const RULE_LABELS: Record<AlarmRule, string> = {
 	single: 'Wafer far beyond limit',
-	run: 'Run beyond warning',
-	ewma: 'Drift',
+	run: 'Run above warning',
+	ewma: 'Smoothed drift',
 	fleet: 'Apart from fleet'
 };
 export const RULE_SEVERITY: Record<AlarmRule, 'alarm' | 'warning'> = {

@@ -1,5 +1,5 @@
 import { fail } from '@sveltejs/kit';
-import { putSetting } from '$lib/server/settings';
+import { AlarmPolicy, putSetting } from '$lib/server/settings';
 import { MAINTENANCE_KINDS } from '$lib/server/maintenance';
 import { policyFromForm, policyState } from '$lib/server/views/policy-view';
 import { designRules } from '$lib/monitoring/alarm-rules';
@@ -8,7 +8,7 @@ import type { Actions, PageServerLoad } from './$types';
 export const load: PageServerLoad = async () => {
 	const alarm = await policyState('alarm_policy');
 	// What the budget makes of each rule, shown beside the setting.
-	const d = designRules(alarm.value);
+	const d = designRules(AlarmPolicy.parse(alarm.value));
 	return {
 		alarm,
 		alarmDesign: { grossScore: d.grossScore, warningProbability: d.warningProbability, driftArl: d.driftArl, driftL: d.driftL },
