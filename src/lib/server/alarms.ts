@@ -165,6 +165,17 @@ async function clear(trx: Knex.Transaction | Knex, id: number, from: string, at:
 }
 
 /**
+ * End a live alarm by itself (state `cleared`), e.g. a fleet alarm once its chamber is back within the
+ * fleet; the reason goes into its audit trail. Returns false when the alarm is not live.
+ */
+export async function clearEpisode(trx: Knex.Transaction | Knex, alarmId: number, at: number, reason: string): Promise<boolean> {
+	const al = await trx('alarms').where({ id: alarmId }).whereIn('state', LIVE_STATES).first('id', 'state');
+	if (!al) return false;
+	await clear(trx, al.id, al.state, at, reason);
+	return true;
+}
+
+/**
  * Open an alarm for a violation, extend the live one of the same chamber × step × rule, or — when
  * the live one is acknowledged and {@link supersedeReason} says so — clear it and open a new one.
  * @returns the alarm id and whether it was newly opened
