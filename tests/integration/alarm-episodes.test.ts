@@ -9,7 +9,7 @@ import { useTempDb } from '../helpers/temp-db.ts';
 import { createFab, insertWaferSteps, latentRows } from '../helpers/fab.ts';
 import { approveBaseline, createDraftBaseline } from '../../src/lib/server/baselines.ts';
 import { scoreWaferSteps } from '../../src/lib/server/scoring.ts';
-import { acknowledgeAlarms, closeAlarm, supersedeReason } from '../../src/lib/server/alarms.ts';
+import { acknowledgeAlarms, clearEpisode, closeAlarm, raiseOrExtend, supersedeReason } from '../../src/lib/server/alarms.ts';
 import { putSetting } from '../../src/lib/server/settings.ts';
 import { createUser } from '../../src/lib/server/users.ts';
 
@@ -139,5 +139,15 @@ describe('episodes', () => {
 		const cleared = await env.k('alarms').where({ chamber_id: ch(), state: 'cleared' }).first();
 		await closeAlarm(env.k, { alarmId: cleared.id, userId: eng, comment: 'reviewed' });
 		await expect(closeAlarm(env.k, { alarmId: cleared.id, userId: eng, comment: '' })).rejects.toThrow(/closed already/);
+	});
+
+	it('a fleet alarm is no wafer episode: in-control wafers leave it live; clearEpisode ends it with its reason', async () => {
+		const f = await raiseOrExtend(env.k, { chamberId: ch(), recipeStepId: fab.recipeStepId, baselineId: null, rule: 'fleet', waferStepId: null, at: clock, ratio: 4, detail: {} });
+		await score(ch(), quiet(12));
+		expect((await env.k('alarms').where({ id: f.id }).first()).state).toBe('open');
+		expect(await clearEpisode(env.k, f.id, clock, 'Back within the fleet in the latest match.')).toBe(true);
+		expect(await clearEpisode(env.k, f.id, clock, 'again')).toBe(false);
+		const act = await env.k('alarm_actions').where({ alarm_id: f.id, action: 'cleared' });
+		expect(act.map((x) => x.comment)).toEqual(['Back within the fleet in the latest match.']);
 	});
 });
