@@ -1,120 +1,94 @@
 import { describe, expect, it } from 'vitest';
-import { XSadd as XSAdd } from 'ml-xsadd';
-import {
-	DRIFT_SCORE_CAP,
-	driftChart,
-	driftChartSd,
-	ewmaLimitForArl,
-	ewmaUpperArl,
-	normalTail,
-	ratioMoments,
-	ratioShape,
-	scoreScale,
-	shiftedChiSquare
-} from '../../../src/lib/monitoring/drift.ts';
+import { ewma, forecastCrossing, referenceStats, runRules } from '../../../src/lib/monitoring';
+import { seededNormal } from './helpers';
 
-const gauss = (rng: XSAdd) => {
-	// Box–Muller on the seeded uniform generator
-	const u = Math.max(rng.random(), 1e-12);
-	return Math.sqrt(-2 * Math.log(u)) * Math.cos(2 * Math.PI * rng.random());
-};
-const chiSquare = (rng: XSAdd, h: number) => {
-	let s = 0;
-	for (let j = 0; j < h; j++) s += gauss(rng) ** 2;
-	return s;
-};
-
-describe('normal tail and the EWMA run length', () => {
-	it('matches scipy for P(Z > 3) and gives the Shewhart ARL at λ = 1', () => {
-		// scipy.stats.norm.sf(3) = 0.0013498980316300933; 1/sf(3) = 740.7966946899184 (evaluated with scipy 1.x)
-		expect(normalTail(3)).toBeCloseTo(0.0013498980316300933, 12);
-		// λ = 1: the EWMA is the observation itself, the chain is exact up to its discretisation
-		expect(ewmaUpperArl(1, 3)).toBeCloseTo(740.7966946899184, 4);
+describe('EWMA (Roberts 1959; time-varying limits after Lucas & Saccucci 1990)', () => {
+	it('recursion z_i = λx_i + (1 − λ)z_{i−1} from z_0 = μ0', () => {
+		const c = ewma([1, 1, 1, 2], { mean: 1, sd: 0.1 });
+		expect(Array.from(c.values)).toEqual([1, 1, 1, 1.2000000000000002]);
 	});
-
-	it('converges as the chain gets finer (Brook & Evans 1972: the discretisation error shrinks with the cell width)', () => {
-		const coarse = ewmaUpperArl(0.2, 3.5, 81);
-		const fine = ewmaUpperArl(0.2, 3.5, 321);
-		expect(Math.abs(ewmaUpperArl(0.2, 3.5, 161) - fine) / fine).toBeLessThan(0.01);
-		expect(Math.abs(coarse - fine)).toBeGreaterThan(Math.abs(ewmaUpperArl(0.2, 3.5, 161) - fine));
+	it('limits μ0 ± Lσ√(λ/(2−λ)(1 − (1−λ)^{2i})): 0.6 at i = 1 and 1.0 asymptotically for λ = 0.2, L = 3, σ = 1 (hand computation)', () => {
+		const c = ewma(new Array(200).fill(0), { mean: 0, sd: 1 });
+		expect(c.upper[0]).toBeCloseTo(0.6, 12);
+		expect(c.lower[0]).toBeCloseTo(-0.6, 12);
+		expect(c.upper[199]).toBeCloseTo(1, 12);
+		expect(c.upperAsymptote).toBeCloseTo(1, 12);
+		for (let i = 1; i < 200; i++) expect(c.upper[i]).toBeGreaterThanOrEqual(c.upper[i - 1]);
+		expect(c.upper[10]).toBeGreaterThan(c.upper[9]);
 	});
-
-	it('finds the L whose chain ARL is the target, and a simulation agrees within 10 % (seeded, 300 run lengths)', () => {
-		const L = ewmaLimitForArl(0.2, 300, Infinity);
-		expect(ewmaUpperArl(0.2, L, 161, Infinity)).toBeCloseTo(300, -1);
-		const rng = new XSAdd(7);
-		const s = Math.sqrt(0.2 / 1.8);
-		let total = 0;
-		for (let r = 0; r < 300; r++) {
-			let z = 0;
-			let t = 0;
-			// steady-state limit, as the chain assumes
-			while (z <= L * s) {
-				z = 0.8 * z + 0.2 * gauss(rng);
-				t++;
-			}
-			total += t;
-		}
-		expect(Math.abs(total / 300 - 300) / 300).toBeLessThan(0.1);
+	it('signals a sustained 1σ shift within a few tens of wafers and not before it', () => {
+		const g = seededNormal(5);
+		const s = Array.from({ length: 100 }, (_, i) => 1 + 0.1 * g() + (i >= 60 ? 0.1 : 0));
+		const c = ewma(s, { mean: 1, sd: 0.1 });
+		expect(c.signals.length).toBeGreaterThan(0);
+		expect(c.signals[0]).toBeGreaterThanOrEqual(60);
+		expect(c.signals[0]).toBeLessThan(90);
 	});
-
-	it('refuses a bad λ, L or target', () => {
-		expect(() => ewmaUpperArl(0, 3)).toThrow(RangeError);
-		expect(() => ewmaUpperArl(0.2, -1)).toThrow(RangeError);
-		expect(() => ewmaLimitForArl(0.2, 5)).toThrow(RangeError);
+	it('estimates μ0 and σ from a reference segment when they are not given', () => {
+		const s = [1, 2, 3, 10, 10];
+		expect(referenceStats(s, 3)).toEqual({ mean: 2, sd: 1 });
+		expect(ewma(s, { referenceLength: 3 }).mean).toBe(2);
+		expect(() => ewma([1, 1, 1])).toThrow(/zero spread/);
+		expect(() => ewma([1, NaN, 2], { mean: 0, sd: 1 })).toThrow(/not finite/);
+		expect(() => ewma([1, 2], { lambda: 0, mean: 0, sd: 1 })).toThrow(RangeError);
 	});
 });
 
-describe('the ratio law and its normal scores', () => {
-	it('recovers a shifted χ² from its exact moments (a + g·χ²_h: mean a + gh, var 2g²h, skew √(8/h))', () => {
-		const f = shiftedChiSquare({ mean: 2 + 0.5 * 4, sd: 0.5 * Math.sqrt(8), skew: Math.sqrt(8 / 4), n: 1000 });
-		expect(f.h).toBeCloseTo(4, 12);
-		expect(f.g).toBeCloseTo(0.5, 12);
-		expect(f.a).toBeCloseTo(2, 12);
-		// With few values the skewness is not trusted: the two-moment fit (a = 0, h = 2·mean²/sd²).
-		const two = shiftedChiSquare({ mean: 4, sd: Math.sqrt(8), skew: 5, n: 100 });
-		expect(two.a).toBe(0);
-		expect(two.h).toBeCloseTo(ratioShape(4, Math.sqrt(8)), 12);
+describe('run rules (Western Electric handbook 1956, zone tests 1–4)', () => {
+	const o = { mean: 0, sd: 1 };
+	it('one value beyond 3σ', () => {
+		expect(runRules([0, 0, 0, 3.5], o)).toEqual([{ rule: 'beyond-3sd', index: 3, start: 3, side: 'high' }]);
 	});
-
-	it('gives the χ² quantile through the Wilson–Hilferty inverse (scipy chi2.ppf(0.99, 3) = 11.3449, WH ≈ 0.2 % off)', () => {
-		const scale = scoreScale({ a: 0, g: 1, h: 3 });
-		// norm.isf(0.01) = 2.3263478740408408 (scipy)
-		expect(Math.abs(scale.ratio(2.3263478740408408) / 11.344866730144373 - 1)).toBeLessThan(0.005);
-		expect(scale.score(scale.ratio(1.7))).toBeCloseTo(1.7, 10);
+	it('two of three beyond 2σ on the same side', () => {
+		expect(runRules([0, 2.5, 0, 2.5], o)).toEqual([{ rule: '2-of-3-beyond-2sd', index: 3, start: 1, side: 'high' }]);
+		expect(runRules([0, 2.5, 0, 0, 2.5], o)).toEqual([]);
 	});
-
-	it('makes skewed χ²-like ratios normal: tail shares within 15 % of the normal ones (seeded, 200,000 draws)', () => {
-		const rng = new XSAdd(11);
-		const xs = Float64Array.from({ length: 200_000 }, () => 0.4 + 0.1 * chiSquare(rng, 3));
-		const scale = scoreScale(shiftedChiSquare(ratioMoments(xs.subarray(0, 5000))));
-		for (const z of [2, 3]) {
-			let n = 0;
-			for (const x of xs) if (scale.score(x) > z) n++;
-			expect(Math.abs(n / xs.length / normalTail(z) - 1)).toBeLessThan(0.15);
-		}
+	it('four of five beyond 1σ on the same side', () => {
+		expect(runRules([1.5, 1.5, 0, 1.5, 1.5], o)).toEqual([{ rule: '4-of-5-beyond-1sd', index: 4, start: 0, side: 'high' }]);
 	});
-
-	it('computes moments, skipping NaN, and refuses a constant series', () => {
-		const m = ratioMoments([1, NaN, 2, 3, 10]);
-		expect(m.n).toBe(4);
-		expect(m.mean).toBe(4);
-		expect(() => ratioMoments([2, 2, 2])).toThrow(RangeError);
-		expect(() => shiftedChiSquare({ mean: 0, sd: 1, skew: 1, n: 500 })).toThrow(RangeError);
+	it('eight in a row on the same side of the centre', () => {
+		const v = runRules(new Array(9).fill(0.5), o);
+		expect(v.map((x) => x.index)).toEqual([7, 8]);
+		expect(v.every((x) => x.rule === '8-same-side')).toBe(true);
+	});
+	it('the low side only when asked', () => {
+		expect(runRules([0, 0, -3.5], o)).toEqual([]);
+		expect(runRules([0, 0, -3.5], { ...o, sides: ['low'] })[0]).toMatchObject({ rule: 'beyond-3sd', side: 'low' });
+	});
+	it('an in-control normal series fires rule 1 about 0.135 % of the time (normal tail)', () => {
+		const g = seededNormal(9);
+		const s = Array.from({ length: 20000 }, g);
+		const n = runRules(s, { ...o, rules: ['beyond-3sd'] }).length;
+		expect(n).toBeGreaterThan(10); // expected 27; Poisson 99.9 % range ≈ 12–46
+		expect(n).toBeLessThan(50);
 	});
 });
 
-describe('the drift chart', () => {
-	it('caps a score at centre + 3σ before smoothing, so one far wafer moves it by at most 0.6 at λ = 0.2', () => {
-		const c = driftChart([0, 0, 50], { lambda: 0.2, L: 4, sd: 1 });
-		expect(c.values[2]).toBeCloseTo(0.2 * DRIFT_SCORE_CAP, 12);
-		expect(c.signals).toEqual([]);
+describe('linear-trend forecast of the EWMA crossing its limit', () => {
+	it('noise-free ramp: crossing where the lagged trend meets the steady-state limit', () => {
+		// x_i = 0.5 + 0.001 i; λ = 0.2 ⇒ EWMA ≈ trend lagged by (1 − λ)/λ = 4 wafers; limit 0.6 ⇒
+		// crossing at i ≈ 105, i.e. 46 wafers after the last index 59 (hand computation).
+		const s = Array.from({ length: 60 }, (_, i) => 0.5 + 0.001 * i);
+		const c = ewma(s, { mean: 0.5, sd: 0.1 });
+		const f = forecastCrossing(s, c);
+		expect(f.slope).toBeCloseTo(0.001, 12);
+		expect(f.wafers).not.toBeNull();
+		expect(Math.abs(f.wafers! - 46)).toBeLessThanOrEqual(1);
+		expect(f.earliest).toBe(f.wafers);
 	});
-
-	it('widens its σ by Zhang’s factor from the kept ACF (F = 1 + 2·0.5·0.8·(1 − 0.8^48) at λ = 0.2)', () => {
-		const { sd, inflation } = driftChartSd({ mean: 1, sd: 1, acf: [0.5, -0.1] }, 200, 0.2);
-		expect(sd ** 2).toBeCloseTo(1 + 2 * 0.5 * 0.8 * (1 - 0.8 ** 48), 12);
-		expect(inflation?.lagsUsed).toBe(1);
-		expect(driftChartSd({ mean: 1, sd: 1 }, 200, 0.2)).toEqual({ sd: 1, inflation: null });
+	it('noisy ramp: the range brackets the estimate and widens with the noise', () => {
+		const g = seededNormal(3);
+		const s = Array.from({ length: 60 }, (_, i) => 0.5 + 0.001 * i + 0.01 * g());
+		const f = forecastCrossing(s, ewma(s, { mean: 0.5, sd: 0.1 }), { window: 40 });
+		expect(f.earliest!).toBeLessThanOrEqual(f.wafers!);
+		expect(f.latest === null || f.latest >= f.wafers!).toBe(true);
+		expect(f.slopeSe).toBeGreaterThan(0);
+	});
+	it('no upward trend: no crossing; already above: zero', () => {
+		const flat = new Array(40).fill(0.5);
+		expect(forecastCrossing(flat, ewma(flat, { mean: 0.5, sd: 0.1 })).wafers).toBeNull();
+		const high = new Array(40).fill(2);
+		expect(forecastCrossing(high, ewma(high, { mean: 0.5, sd: 0.1 })).wafers).toBe(0);
+		expect(() => forecastCrossing([1, 2], ewma([1, 2], { mean: 0, sd: 1 }))).toThrow(RangeError);
 	});
 });
