@@ -18,7 +18,8 @@ export function normalTail(z: number): number {
  * Shape (degrees of freedom) of a scaled χ² matched to a ratio's in-control mean and sd: for
  * X = g·χ²_h, mean = g·h and var = 2g²h, so h = 2·mean²/sd² (moment matching as in Box 1954,
  * "Some theorems on quadratic forms applied in the study of analysis of variance problems I",
- * Ann. Math. Statist. 25:290, the approximation behind the Q limit of Jackson & Mudholkar 1979).
+ * Ann. Math. Statist. 25:290, the approximation behind the Q limit of Jackson & Mudholkar 1979;
+ * citations from memory).
  * Clipped to [1, 200]: below 1 the Wilson–Hilferty score is poor, above 200 the shape no longer
  * matters (the score is then almost linear in the ratio).
  *
@@ -77,8 +78,8 @@ export function ratioMoments(xs: ArrayLike<number>): RatioMoments {
  * Three-moment fit of a shifted, scaled χ² to a ratio's in-control mean, sd and skewness:
  * h = 8/skew², g = sd/√(2h), a = mean − g·h (a + g·χ²_h has exactly these three moments). The
  * three-moment χ² approximation of quadratic forms is Pearson's (1959, "Note on an approximation to
- * the distribution of non-central χ²", Biometrika 46:364), used by Imhof (1961, Biometrika 48:419)
- * for Q-like statistics. Why three moments: the out-of-sample Q of a new wafer is more skewed than a
+ * the distribution of non-central χ²", Biometrika 46:364), used by Imhof (1961, Biometrika 48:419;
+ * both citations from memory) for Q-like statistics. Why three moments: the out-of-sample Q of a new wafer is more skewed than a
  * χ² with its mean and sd (the plane's estimation error scales with the wafer's scores), so a
  * two-moment fit puts far too little probability in the tail — measured with p = 40 and 100 golden wafers, 6e-4
  * against 3.2e-5 for a normal beyond a score of 4, and 9e-5 with three moments (bench/ratio-tails.ts).
@@ -104,7 +105,7 @@ export function shiftedChiSquare(m: RatioMoments): ShiftedChiSquare {
 
 /**
  * Normal score of a ratio under its fitted shifted χ², by the Wilson–Hilferty cube root:
- * z = [ (((r − a)/g)/h)^{1/3} − (1 − 2/(9h)) ] / √(2/(9h)) (Wilson & Hilferty 1931); ≈ N(0, 1) in
+ * z = [ (((r − a)/g)/h)^{1/3} − (1 − 2/(9h)) ] / √(2/(9h)) (Wilson & Hilferty 1931, "The distribution of chi-square", PNAS 17:684; from memory); ≈ N(0, 1) in
  * control. Ratios below a score as a ratio at a. With `inverse`, the ratio of a score.
  *
  * @example scoreScale({ a: 0, g: 1, h: 3 }).score(3 * 0.9259) // → ≈ 0 (the cube root's centre)
@@ -124,7 +125,8 @@ export function scoreScale(f: ShiftedChiSquare): { score: (ratio: number) => num
  * `states` cells, transitions between cell centres come from the normal CDF, values below −B stay in
  * the lowest cell, and ARL = (I − P)⁻¹·1 from the cell that holds 0.
  * Source: Brook & Evans (1972) "An approach to the probability distribution of CUSUM run length",
- * Biometrika 59:539; used for the EWMA by Lucas & Saccucci (1990), Technometrics 32:1.
+ * Biometrika 59:539; used for the EWMA by Lucas & Saccucci (1990), Technometrics 32:1 (citations from
+ * memory).
  *
  * @param lambda λ, 0 < λ ≤ 1
  * @param L limit width in σ_EWMA units (> 0)
@@ -182,8 +184,8 @@ export function ewmaUpperArl(lambda: number, L: number, states = 161, cap = Infi
  * heavy right tail (new-wafer T² follows an F, not a χ²; Q limits from a small golden set are often
  * too tight) would otherwise let single wafers trip the EWMA (one score of 6 moves it by 1.2 at
  * λ = 0.2, nearly its whole limit). The cap is in the ARL computation too. Bounding each observation's
- * influence is the idea of the robust CUSUM of Lucas & Crosier (1982, Technometrics 24:199) and of
- * the Huber-type EWMA; the value 3 is common practice (a Shewhart 3σ point).
+ * influence is the idea of the robust CUSUM of Lucas & Crosier (1982, Technometrics 24:199; from
+ * memory) and of the Huber-type EWMA; the value 3 is common practice (a Shewhart 3σ point).
  */
 export const DRIFT_SCORE_CAP = 3;
 
