@@ -106,7 +106,7 @@ export function shiftedChiSquare(m: RatioMoments): ShiftedChiSquare {
 /**
  * Normal score of a ratio under its fitted shifted χ², by the Wilson–Hilferty cube root:
  * z = [ (((r − a)/g)/h)^{1/3} − (1 − 2/(9h)) ] / √(2/(9h)) (Wilson & Hilferty 1931, "The distribution of chi-square", PNAS 17:684; from memory); ≈ N(0, 1) in
- * control. Ratios below a score as a ratio at a. With `inverse`, the ratio of a score.
+ * control. Ratios below a score as a ratio at a. `ratio(z)` is the inverse: the ratio whose score is z.
  *
  * @example scoreScale({ a: 0, g: 1, h: 3 }).score(3 * 0.9259) // → ≈ 0 (the cube root's centre)
  */
