@@ -11,6 +11,7 @@ import * as rollupIndex from './20261201000300_rollup_covering_index.ts';
 import * as mail from './20261201020000_mail.ts';
 import * as featureSetProposals from './20261201030000_feature_set_proposals.ts';
 import * as rollupSeasoning from './20261201040000_rollup_seasoning.ts';
+import * as alarmEpisodes from './20261203020000_alarm_episodes.ts';
 import * as fleetRuns from './20261203030000_fleet_runs.ts';
 import * as structureAndTokens from './20261203050000_structure_and_tokens.ts';
 import * as qualifications from './20261203060000_qualifications.ts';
@@ -23,6 +24,7 @@ const migrations: Record<string, Knex.Migration> = {
 	'20261201020000_mail.ts': mail,
 	'20261201030000_feature_set_proposals.ts': featureSetProposals,
 	'20261201040000_rollup_seasoning.ts': rollupSeasoning,
+	'20261203020000_alarm_episodes.ts': alarmEpisodes,
 	'20261203030000_fleet_runs.ts': fleetRuns,
 	'20261203050000_structure_and_tokens.ts': structureAndTokens,
 	'20261203060000_qualifications.ts': qualifications

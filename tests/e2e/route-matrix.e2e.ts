@@ -50,6 +50,8 @@ export const EXPECTED: Record<string, Entry> = {
 	'/uploads/feature-sets': { GET: 'viewer', actions: { accept: 'engineer', dismiss: 'engineer' } },
 	'/admin/tokens': { GET: 'admin', actions: { create: 'admin', revoke: 'admin' } },
 	'/api/ingest': { POST: 'engineer' },
+	'/api/alarms': { GET: 'viewer' },
+	'/api/alarms/acknowledge': { POST: 'engineer' },
 	'/api/uploads': { GET: 'engineer' },
 	// Mail. /unsubscribe's GET needs a signed token (a bad one answers 400): mail-unsubscribe.e2e.ts tests it.
 	'/account/mail': { GET: 'viewer', actions: { save: 'viewer' } },

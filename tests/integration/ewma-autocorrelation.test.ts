@@ -14,7 +14,10 @@ import {
 	getModel,
 	type EwmaReference
 } from '../../src/lib/server/baselines.ts';
-import { evaluateRules, ewmaChartSd, type ScoredPoint } from '../../src/lib/server/alarms.ts';
+import { evaluateRules, type ScoredPoint } from '../../src/lib/server/alarms.ts';
+import { driftChartSd, scoreScale } from '../../src/lib/monitoring/drift.ts';
+import { designRules } from '../../src/lib/monitoring/alarm-rules.ts';
+import { ruleBaselineOf } from '../../src/lib/server/scoring.ts';
 import { scoreWaferSteps } from '../../src/lib/server/scoring.ts';
 import { AlarmPolicy } from '../../src/lib/server/settings.ts';
 import { getChamberSeries } from '../../src/lib/server/views/chamber-view.ts';
@@ -138,20 +141,24 @@ describe('a baseline keeps the ACF of its cross-validated golden ratios', () => 
 		// and the caption names that source and its length.
 		expect(s.ewma.acf).toEqual({ source: 'consecutive', n: 80 });
 		expect(Math.max(F.t2, F.q)).toBeGreaterThan(1.2); // the lot effect is seen
-		// Steady-state limit: mean + L σ √F √(λ/(2 − λ)) (Zhang 1998; Roberts 1959).
+		// The drift chart runs on normal scores: limit L σ √F √(λ/(2 − λ)·(1 − (1 − λ)^{2i})) (Zhang 1998;
+		// Roberts 1959), drawn back in ratio units through the ratio's fitted law (alarm-rules.ts).
 		const last = s.ewmaQUpper.length - 1;
 		const base = Math.sqrt(
 			(policy.ewmaLambda / (2 - policy.ewmaLambda)) * (1 - (1 - policy.ewmaLambda) ** (2 * (last + 1)))
 		);
-		expect(s.ewmaQUpper[last]!).toBeCloseTo(ref.q.mean + policy.ewmaL * ref.q.sd * Math.sqrt(F.q) * base, 9);
+		const rb = ruleBaselineOf({ alpha: 0.01, k: 3 }, ref);
+		const L = designRules(policy).driftL;
+		expect(s.ewmaQUpper[last]!).toBeCloseTo(scoreScale(rb.shape.q).ratio(L * Math.sqrt(F.q) * base), 9);
 		expect(baselineId).toBe(s.baselineId[0]);
 	});
 });
 
 describe('evaluateRules: the EWMA rule with and without a stored ACF', () => {
 	const policy = AlarmPolicy.parse({});
-	// A ratio series sitting 0.15 above the in-control mean (σ = 0.1): the EWMA settles at +0.15,
-	// above the independent-wafer limit 3.5 · 0.1 · √(0.2/1.8) ≈ 0.117 but below the widened one.
+	// A ratio series sitting 0.15 above the in-control mean (σ = 0.1). On the score scale (two-moment
+	// law, h = 2·0.3²/0.1² = 18) 0.45 scores ≈ 1.41: the EWMA settles there, above the
+	// independent-wafer limit 4.03 · √(0.2/1.8) ≈ 1.34 but below the widened one (× √F ≈ 1.64).
 	const points: ScoredPoint[] = Array.from({ length: 60 }, (_, i) => ({
 		waferStepId: i + 1,
 		processedAt: T0 + i,
@@ -161,16 +168,14 @@ describe('evaluateRules: the EWMA rule with and without a stored ACF', () => {
 		qRatio: 0.3,
 		worstRatio: 0.45
 	}));
-	const limits = (ref: EwmaReference) => ({
-		id: 1,
-		t2WarningLimit: 1e9,
-		qWarningLimit: 1e9,
-		ewmaReference: ref
-	});
+	// Gross and run rules off: this is about the drift rule's widening.
+	const limits = (ref: EwmaReference) => ruleBaselineOf({ alpha: 0.01, k: 3 }, ref);
+	policy.singleEnabled = false;
+	policy.runEnabled = false;
 	const acf = [0.6, 0.4, 0.2, -0.1];
 	it('an older baseline (no ACF) keeps today’s limits and alarms on the lot-to-lot level', () => {
 		const old: EwmaReference = { t2: { mean: 0.3, sd: 0.1 }, q: { mean: 0.3, sd: 0.1 }, folds: 5 };
-		expect(ewmaChartSd(old.t2, old.n, 0.2)).toEqual({ sd: 0.1, inflation: null });
+		expect(driftChartSd(old.t2, old.n, 0.2)).toEqual({ sd: 1, inflation: null });
 		const v = evaluateRules([], points, limits(old), policy);
 		expect(v.filter((x) => x.rule === 'ewma').length).toBeGreaterThan(0);
 	});
@@ -183,7 +188,7 @@ describe('evaluateRules: the EWMA rule with and without a stored ACF', () => {
 		};
 		const F =
 			1 + 2 * (0.6 * 0.8 * (1 - 0.8 ** 48) + 0.4 * 0.64 * (1 - 0.8 ** 46) + 0.2 * 0.512 * (1 - 0.8 ** 44));
-		expect(ewmaChartSd(ref.t2, ref.n, 0.2).sd).toBeCloseTo(0.1 * Math.sqrt(F), 12);
+		expect(driftChartSd(ref.t2, ref.n, 0.2).sd).toBeCloseTo(Math.sqrt(F), 12);
 		expect(evaluateRules([], points, limits(ref), policy).filter((x) => x.rule === 'ewma')).toEqual([]);
 		// A real shift still trips it.
 		const shifted = points.map((p) => ({ ...p, t2Ratio: 0.6 }));

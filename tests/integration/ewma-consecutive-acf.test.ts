@@ -16,7 +16,7 @@ import { useTempDb } from '../helpers/temp-db.ts';
 import { createFab } from '../helpers/fab.ts';
 import { encodeValues } from '../../src/lib/server/feature-values.ts';
 import { CONSECUTIVE_ACF_MIN, createDraftBaseline, getModel, type EwmaReference } from '../../src/lib/server/baselines.ts';
-import { ewmaChartSd } from '../../src/lib/server/alarms.ts';
+import { driftChartSd as ewmaChartSd } from '../../src/lib/monitoring/drift.ts';
 import { getWaferStepsByIds } from '../../src/lib/server/wafer-steps.ts';
 import {
 	crossValidatedScores,

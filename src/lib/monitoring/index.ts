@@ -104,3 +104,36 @@ export {
 	type LeakSignature
 } from './leak-signature';
 export { serializeModel, deserializeModel, modelToBlob, modelFromBlob } from './serialize';
+export {
+	normalTail,
+	ratioShape,
+	ratioMoments,
+	shiftedChiSquare,
+	scoreScale,
+	ewmaUpperArl,
+	ewmaLimitForArl,
+	driftChartSd,
+	driftChart,
+	DRIFT_SCORE_CAP,
+	type RatioMoments,
+	type ShiftedChiSquare,
+	type DriftReference
+} from './drift';
+export {
+	designRules,
+	evaluateRules,
+	quietPoints,
+	runWarningProbability,
+	binomialAtLeast,
+	BUDGET_SHARES,
+	TAIL_MARGIN,
+	RULE_LABELS,
+	RULE_SEVERITY,
+	type AlarmRule,
+	type WaferRule,
+	type RulePolicy,
+	type RuleDesign,
+	type RuleBaseline,
+	type ScoredPoint,
+	type Violation
+} from './alarm-rules';

@@ -3,6 +3,7 @@
  * retired), and the model cache that scoring reads.
  */
 import type { Knex } from 'knex';
+import { ratioMoments, type RatioMoments } from '../monitoring/drift.ts';
 import {
 	fitBaseline,
 	modelFromBlob,
@@ -137,6 +138,13 @@ export interface EwmaStatReference {
 	 * assume independent wafers), and when the series is constant.
 	 */
 	acf?: number[];
+	/**
+	 * Mean, sd and skewness of the ratio over the same series as the ACF (out of sample: cross-validated
+	 * golden ratios and the other in-control wafers of the training window), from which the alarm rules
+	 * fit the ratio's in-control law (monitoring/drift.ts shiftedChiSquare). Absent on older baselines
+	 * (the rules then use mean and sd alone).
+	 */
+	moments?: RatioMoments;
 }
 
 /** Where a baseline's ACF came from. */
@@ -274,6 +282,15 @@ async function ewmaReference(
 	};
 	if (t2.sd > 0) t2.acf = acfOf(series.t2);
 	if (qRef.sd > 0) qRef.acf = acfOf(series.q);
+	const momentsOf = (a: Float64Array): RatioMoments | undefined => {
+		try {
+			return ratioMoments(a);
+		} catch {
+			return undefined; // a constant series: the rules fall back to mean and sd
+		}
+	};
+	t2.moments = momentsOf(series.t2);
+	qRef.moments = momentsOf(series.q);
 	return { t2, q: qRef, folds: cv.folds, n, acfSource };
 }
 

@@ -61,6 +61,10 @@ export const ROUTE_POLICY: Record<string, RoutePolicy> = {
 	'/uploads/feature-sets': { GET: 'viewer', actions: { accept: 'engineer', dismiss: 'engineer' } },
 	'/admin/tokens': { GET: 'admin', actions: { create: 'admin', revoke: 'admin' } },
 	'/api/ingest': { POST: 'engineer', token: 'ingest' },
+	// Alarms for automation: a read token may list them; acknowledging is recorded as a person, so it
+	// needs an engineer's session.
+	'/api/alarms': { GET: 'viewer', token: 'read' },
+	'/api/alarms/acknowledge': { POST: 'engineer' },
 	'/api/uploads': { GET: 'engineer' },
 	// Mail: one's own settings (an admin may open anyone's; checked in the route), the admin outbox and
 	// mailbox, and the public unsubscribe page, where the signed token is the credential.

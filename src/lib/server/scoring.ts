@@ -7,9 +7,12 @@
  * the baseline's limits), its hourly rollup updated and the wafer alarm rules run.
  */
 import type { Knex } from 'knex';
-import { scoreBatch } from '../monitoring/index.ts';
-import { raiseOrExtendAll, evaluateRules, type AlarmRule, type ScoredPoint, type BaselineLimits } from './alarms.ts';
-import { getModel } from './baselines.ts';
+import { contributions, rankContributions, scoreBatch, type BaselineModel } from '../monitoring/index.ts';
+import { shiftedChiSquare, type ShiftedChiSquare } from '../monitoring/drift.ts';
+import { chiSquareUpper } from '../monitoring/quantiles.ts';
+import { designRules, type RuleBaseline } from '../monitoring/alarm-rules.ts';
+import { raiseOrExtendAll, evaluateRules, quietPoints, settleEpisodes, type AlarmRule, type ScoredPoint, type Violation } from './alarms.ts';
+import { getModel, type EwmaReference } from './baselines.ts';
 import { decodeValues } from './feature-values.ts';
 import { getSetting } from './settings.ts';
 import { now } from './time.ts';
@@ -54,7 +57,7 @@ export async function scoreWaferSteps(
 		const { chamberId, recipeStepId } = group[0];
 		const b = await trx('baselines')
 			.where({ scope: 'chamber', chamber_id: chamberId, recipe_step_id: recipeStepId, status: 'active' })
-			.first('id', 'feature_set_version', 't2_warning_limit', 'q_warning_limit', 'summary_json');
+			.first('id', 'feature_set_version', 'summary_json');
 		const fits = b ? group.filter((r) => r.featureSetVersion === b.feature_set_version) : [];
 		for (const r of group) if (!fits.includes(r)) unscored.push(r.id);
 		if (!b || fits.length === 0) continue;
@@ -70,7 +73,7 @@ export async function scoreWaferSteps(
 
 async function scoreGroup(
 	trx: Knex.Transaction | Knex,
-	b: { id: number; t2_warning_limit: number; q_warning_limit: number; summary_json: string },
+	b: { id: number; summary_json: string },
 	rows: NewWaferStep[],
 	policy: Awaited<ReturnType<typeof getSetting<'alarm_policy'>>>,
 	raiseAlarms: boolean
@@ -144,26 +147,60 @@ async function scoreGroup(
 	else await updateRollups(trx, chamberId, recipeStepId, points);
 	if (!raiseAlarms) return [];
 
-	const summary = JSON.parse(b.summary_json) as { ewmaReference?: BaselineLimits['ewmaReference'] };
-	const limits: BaselineLimits = {
-		id: b.id,
-		t2WarningLimit: b.t2_warning_limit,
-		qWarningLimit: b.q_warning_limit,
-		ewmaReference: summary.ewmaReference ?? null
-	};
+	const summary = JSON.parse(b.summary_json) as { ewmaReference?: EwmaReference | null };
+	const ruleBaseline = ruleBaselineOf(model, summary.ewmaReference ?? null);
 	const opened: number[] = [];
 	const judged = policy.holdDuringSeasoning ? points.filter((p) => !seasoning.has(p.waferStepId)) : points;
-	const byRule = new Map<AlarmRule, ReturnType<typeof evaluateRules>>();
-	for (const v of evaluateRules(history, judged, limits, policy)) {
+	const violations = evaluateRules(history, judged, ruleBaseline, policy, designRules(policy));
+	const byRule = new Map<AlarmRule, Violation[]>();
+	const valuesOf = new Map(rows.map((r) => [r.id, r.values]));
+	for (const v of violations) {
+		v.leading = leadingContributors(model, valuesOf.get(v.point.waferStepId)!, v.point);
 		const list = byRule.get(v.rule);
 		if (list) list.push(v);
 		else byRule.set(v.rule, [v]);
 	}
-	for (const [rule, violations] of byRule) {
-		const r = await raiseOrExtendAll(trx, { chamberId, recipeStepId, baselineId: b.id, rule }, violations);
-		if (r?.opened) opened.push(r.id);
+	for (const [rule, vs] of byRule) {
+		const r = await raiseOrExtendAll(trx, { chamberId, recipeStepId, baselineId: b.id, rule }, vs, policy);
+		if (r) opened.push(...r.openedIds);
 	}
+	const quiet = quietPoints(judged, violations);
+	await settleEpisodes(trx, { chamberId, recipeStepId, clearAfter: policy.clearAfter }, judged.map((p, i) => ({ processedAt: p.processedAt, quiet: quiet[i] })));
 	return opened;
+}
+
+/**
+ * What the alarm rules need of a baseline: each ratio's in-control law (a shifted χ² fitted to the
+ * out-of-sample moments the baseline kept, {@link shiftedChiSquare}; a baseline with mean and sd only
+ * gets the two-moment fit; one with no reference, a χ² with k (T²) or 2 (Q) degrees of freedom whose
+ * (1 − α) quantile is the limit) and the ACF for the drift charts (none: the drift rule is off for this
+ * baseline, as before).
+ */
+export function ruleBaselineOf(model: Pick<BaselineModel, 'alpha' | 'k'>, ref: EwmaReference | null): RuleBaseline {
+	const law = (m: EwmaReference['t2'] | undefined, fallbackH: number): ShiftedChiSquare => {
+		try {
+			if (m) return shiftedChiSquare(m.moments ?? { mean: m.mean, sd: m.sd, skew: 0, n: 0 });
+		} catch {
+			// a degenerate reference: the limit's own law below
+		}
+		return { a: 0, g: 1 / chiSquareUpper(model.alpha, fallbackH), h: fallbackH };
+	};
+	return {
+		shape: { t2: law(ref?.t2, Math.max(1, model.k)), q: law(ref?.q, 2) },
+		drift: ref ? { t2: ref.t2, q: ref.q, n: ref.n } : null
+	};
+}
+
+/** The five features that drove a wafer's worse statistic (Q contributions, or T² RBC when T² is worse). */
+function leadingContributors(model: BaselineModel, values: Float64Array, p: ScoredPoint): string[] {
+	try {
+		const byQ = p.qRatio >= p.t2Ratio;
+		const c = contributions(model, values, byQ ? 'q' : 'rbc');
+		const v = byQ ? c.q : (c.t2 ?? c.q);
+		return rankContributions(v, 5).map((x) => x.feature);
+	} catch {
+		return [];
+	}
 }
 
 /** Merge points into the hourly rollups (read, combine, write: portable across SQLite and PostgreSQL). */

@@ -9,19 +9,26 @@ import { db } from './db.ts';
 import { now } from './time.ts';
 
 export const AlarmPolicy = z.object({
-	/** One wafer-step above the α limit in T² or Q. */
+	/**
+	 * The budget every wafer rule is designed around: false alarms per chamber × recipe step per
+	 * 10,000 in-control wafer-steps, all rules together (monitoring/alarm-rules.ts designRules).
+	 * 2 ≈ one a week for a chamber running 3 steps at 20 wafers an hour (common practice: about one a week).
+	 */
+	falseAlarmsPer10k: z.number().min(0.1).max(100).default(2),
+	/** A wafer far beyond its limit (in-control probability within the budget). */
 	singleEnabled: z.boolean().default(true),
-	/** k of the last m wafer-steps above the warning limit. */
+	/** k of the last m wafer-steps beyond the warning score (derived from the budget). */
 	runEnabled: z.boolean().default(true),
 	runK: z.number().int().min(2).max(20).default(3),
 	runM: z.number().int().min(2).max(50).default(5),
-	/** EWMA of the T² ratio or of the Q ratio above its upper limit. */
+	/** Drift: EWMA of the normal scores of the T² and Q ratios; its L follows from the budget. */
 	ewmaEnabled: z.boolean().default(true),
-	ewmaLambda: z.number().gt(0).max(1).default(0.2),
-	// 3.5 rather than the textbook 3: consecutive wafers of a lot are correlated, which the EWMA
-	// variance formula (independent values) does not see; measured on the demo fab (common practice).
-	ewmaL: z.number().gt(0).max(6).default(3.5),
-	/** Chamber flagged by fleet matching (|modified z| > 3.5). */
+	ewmaLambda: z.number().min(0.05).max(1).default(0.2),
+	/** Consecutive in-control wafers after which a live alarm ends by itself (state cleared). */
+	clearAfter: z.number().int().min(3).max(500).default(25),
+	/** An acknowledged alarm whose worst ratio reaches this multiple of the ratio at acknowledgement hands over to a new alarm. */
+	reopenFactor: z.number().min(1.2).max(100).default(3),
+	/** Chamber flagged by fleet matching. */
 	fleetEnabled: z.boolean().default(true),
 	/** Wafers in the seasoning window after a wet clean (baseline policy's seasoningWafers) open no wafer alarms. */
 	holdDuringSeasoning: z.boolean().default(true),

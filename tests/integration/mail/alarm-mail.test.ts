@@ -69,7 +69,7 @@ describe('alarm mails', () => {
 		expect(r.queued.map((q) => [q.userId, q.alarms])).toEqual([[alice, 1]]);
 		const mails = await inbox('alice@wrenfield.example');
 		expect(mails).toHaveLength(1);
-		expect(mails[0].subject).toBe('Lockstep alarm: CH1 Wafer beyond limit (worst ratio 2.00)');
+		expect(mails[0].subject).toBe('Lockstep alarm: CH1 Wafer far beyond limit (worst ratio 2.00)');
 		expect(mails[0].text_body).toContain(`${mailOrigin()}/alarms/${first}`);
 		expect(mails[0].text_body).toContain('Lockstep recommends and records; it never acts on a tool.');
 		expect(mails[0].text_body).not.toContain('CH3'); // the alarm from before the subscription
@@ -102,12 +102,12 @@ describe('alarm mails', () => {
 		expect(r.queued).toHaveLength(2);
 		const aliceMails = await inbox('alice@wrenfield.example');
 		expect(aliceMails.map((m) => m.subject)).toEqual([
-			'Lockstep alarm: CH1 Wafer beyond limit (worst ratio 2.00)',
-			'Lockstep alarm: CH2 Wafer beyond limit (worst ratio 2.00)',
-			'Lockstep alarm: CH3 Wafer beyond limit (worst ratio 2.00)'
+			'Lockstep alarm: CH1 Wafer far beyond limit (worst ratio 2.00)',
+			'Lockstep alarm: CH2 Wafer far beyond limit (worst ratio 2.00)',
+			'Lockstep alarm: CH3 Wafer far beyond limit (worst ratio 2.00)'
 		]);
 		const bobMails = await inbox('bob@wrenfield.example');
-		expect(bobMails.map((m) => m.subject)).toEqual(['Lockstep alarm: CH2 Wafer beyond limit (worst ratio 2.00)', 'Lockstep: 2 alarms opened on CH2']);
+		expect(bobMails.map((m) => m.subject)).toEqual(['Lockstep alarm: CH2 Wafer far beyond limit (worst ratio 2.00)', 'Lockstep: 2 alarms opened on CH2']);
 		const grouped = bobMails[1].text_body;
 		for (const id of [b.id, e.id]) expect(grouped).toContain(`${mailOrigin()}/alarms/${id}`);
 		expect(grouped).toContain('Smoothed drift (warning)');

@@ -57,7 +57,7 @@ describe('alarm queue read model', () => {
 		const single = alarms.find((a) => a.rule === 'single');
 		expect(single).toBeDefined();
 		expect(single!.chamberCode).toBe('CH1');
-		expect(single!.ruleLabel).toBe('Wafer beyond limit');
+		expect(single!.ruleLabel).toBe('Wafer far beyond limit');
 		expect(single!.worstWaferId).toBe('leak-0');
 		expect(single!.leak?.gases).toEqual(['N2']);
 		expect(single!.leak?.features).toContain('oes_337.1');

@@ -6,7 +6,7 @@
 import type { Knex } from 'knex';
 import { median } from 'simple-statistics';
 import { leakSignature as leakRule, waferLeakSignature, type LeakGas } from '../../monitoring/index.ts';
-import { DISPOSITIONS, RULE_LABELS, type AlarmRule } from '../alarms.ts';
+import { DISPOSITIONS, LIVE_STATES, RULE_LABELS, type AlarmRule } from '../alarms.ts';
 import { getModel } from '../baselines.ts';
 import { db } from '../db.ts';
 import { decodeValues } from '../feature-values.ts';
@@ -14,7 +14,7 @@ import { now } from '../time.ts';
 
 const HOUR = 3_600_000;
 
-export const STATE_FILTERS = { live: 'Open or acknowledged', open: 'Open', acknowledged: 'Acknowledged', closed: 'Closed', all: 'All' } as const;
+export const STATE_FILTERS = { live: 'Open or acknowledged', open: 'Open', acknowledged: 'Acknowledged', cleared: 'Cleared (back in control)', closed: 'Closed', all: 'All' } as const;
 export type StateFilter = keyof typeof STATE_FILTERS;
 /** Age of an alarm = now − opened. "lt" keeps younger ones, "gt" older ones. */
 export const AGE_FILTERS = { any: 'Any age', lt8h: 'Opened in the last 8 h', lt24h: 'Opened in the last 24 h', gt24h: 'Older than 24 h', gt3d: 'Older than 3 days' } as const;
@@ -82,7 +82,7 @@ export interface QueueAlarm {
 	rule: AlarmRule;
 	ruleLabel: string;
 	severity: 'warning' | 'alarm';
-	state: 'open' | 'acknowledged' | 'closed';
+	state: 'open' | 'acknowledged' | 'cleared' | 'closed';
 	openedAt: number;
 	lastSeenAt: number;
 	waferCount: number;
@@ -93,6 +93,10 @@ export interface QueueAlarm {
 	detail: Record<string, unknown>;
 	acknowledgedAt: number | null;
 	closedAt: number | null;
+	/** When the episode ended by itself (a run of in-control wafers, or superseded by a new alarm). */
+	clearedAt: number | null;
+	/** The earlier alarm this one took over from (an acknowledged alarm it must not hide behind). */
+	supersedesId: number | null;
 	requalify: boolean;
 	lastAck: AckSummary | null;
 	/** gases whose lines lead the alarm (N2, He…) when the signature is leak-like */
@@ -161,6 +165,8 @@ function toAlarm(r: any): Omit<QueueAlarm, 'lastAck' | 'leak'> {
 		detail,
 		acknowledgedAt: r.acknowledged_at === null ? null : Number(r.acknowledged_at),
 		closedAt: r.closed_at === null ? null : Number(r.closed_at),
+		clearedAt: r.cleared_at == null ? null : Number(r.cleared_at),
+		supersedesId: r.supersedes_id ?? null,
 		requalify: r.requalify_since !== null
 	};
 }
@@ -210,7 +216,7 @@ async function leakSignature(a: Omit<QueueAlarm, 'lastAck' | 'leak'>, k: Knex): 
 export async function listQueue(f: QueueFilters, opts: { limit?: number; at?: number } = {}, k: Knex = db()): Promise<{ alarms: QueueAlarm[]; total: number }> {
 	const at = opts.at ?? now();
 	const q = base(k);
-	if (f.state === 'live') q.whereNot('a.state', 'closed');
+	if (f.state === 'live') q.whereIn('a.state', LIVE_STATES);
 	else if (f.state !== 'all') q.where('a.state', f.state);
 	if (f.area) q.where('ar.code', f.area);
 	if (f.chamber) q.where('c.code', f.chamber);
@@ -221,13 +227,13 @@ export async function listQueue(f: QueueFilters, opts: { limit?: number; at?: nu
 	if (f.age === 'gt3d') q.where('a.opened_at', '<', at - 72 * HOUR);
 	const total = Number((await q.clone().clearSelect().clearOrder().count({ n: '*' }).first())?.n ?? 0);
 	const rows = await q
-		.orderByRaw(`case a.state when 'open' then 0 when 'acknowledged' then 1 else 2 end`)
+		.orderByRaw(`case a.state when 'open' then 0 when 'acknowledged' then 1 when 'cleared' then 2 else 3 end`)
 		.orderBy([{ column: 'a.severity' }, { column: 'a.last_seen_at', order: 'desc' }])
 		.limit(opts.limit ?? 300);
 	const alarms = rows.map(toAlarm);
 	const acks = await lastAcks(alarms.map((a) => a.id), k);
 	const out: QueueAlarm[] = [];
-	for (const a of alarms) out.push({ ...a, lastAck: acks.get(a.id) ?? null, leak: a.state === 'closed' ? null : await leakSignature(a, k) });
+	for (const a of alarms) out.push({ ...a, lastAck: acks.get(a.id) ?? null, leak: a.state === 'closed' || a.state === 'cleared' ? null : await leakSignature(a, k) });
 	return { alarms: out, total };
 }
 
@@ -272,7 +278,7 @@ export async function getAlarm(id: number, k: Knex = db()): Promise<{ alarm: Que
 		comment: r.comment
 	}));
 	// Other live alarms of the same chamber: candidates for one acknowledgement together.
-	const others = await base(k).where('a.chamber_id', a.chamberId).whereNot('a.id', id).whereNot('a.state', 'closed').orderBy('a.opened_at');
+	const others = await base(k).where('a.chamber_id', a.chamberId).whereNot('a.id', id).whereIn('a.state', LIVE_STATES).orderBy('a.opened_at');
 	const neighbourAcks = await lastAcks(others.map((o) => o.id), k);
 	return { alarm, audit, neighbours: others.map(toAlarm).map((n) => ({ ...n, lastAck: neighbourAcks.get(n.id) ?? null, leak: null })) };
 }

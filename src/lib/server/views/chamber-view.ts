@@ -4,8 +4,10 @@
  * The wafer table is in chamber-wafers.ts.
  */
 import type { Knex } from 'knex';
-import { ewma, forecastCrossing, type CrossingForecast } from '../../monitoring/index.ts';
-import { ewmaChartSd } from '../alarms.ts';
+import { forecastCrossing, type CrossingForecast } from '../../monitoring/index.ts';
+import { designRules } from '../../monitoring/alarm-rules.ts';
+import { driftChart, driftChartSd, scoreScale } from '../../monitoring/drift.ts';
+import { ruleBaselineOf } from '../scoring.ts';
 import type { EwmaReference } from '../baselines.ts';
 import { db } from '../db.ts';
 import { listChambers, type ChamberInfo } from '../fleet-structure.ts';
@@ -166,6 +168,9 @@ export async function getChamberSeries(q: { chamberId: number; recipeStepId: num
 			refs.set(b.id, null);
 		}
 	}
+	const alphas = new Map<number, { alpha: number; k: number }>();
+	for (const b of await k('baselines').whereIn('id', baselineRows.map((b) => b.id)).select('id', 'alpha', 'k')) alphas.set(b.id, { alpha: Number(b.alpha), k: Number(b.k) });
+	const design = designRules(policy);
 
 	const all = [...warm, ...rows];
 	const n = all.length;
@@ -182,21 +187,28 @@ export async function getChamberSeries(q: { chamberId: number; recipeStepId: num
 		let s1 = s0;
 		while (s1 < n && all[s1].baseline_id === all[s0].baseline_id) s1++;
 		const ref = refs.get(all[s0].baseline_id);
+		const fit = alphas.get(all[s0].baseline_id);
+		const rb = fit ? ruleBaselineOf(fit, ref ?? null) : null;
 		const seg = all.slice(s0, s1);
 		for (const [stat, field, out, up] of [
 			['T²', 't2_ratio', ewmaT2, upT2],
 			['Q', 'q_ratio', ewmaQ, upQ]
 		] as const) {
-			const m = ref?.[stat === 'T²' ? 't2' : 'q'];
-			if (!m || !(m.sd > 0) || !Number.isFinite(m.mean)) continue;
-			const series = seg.map((r) => r[field] as number);
-			const { sd, inflation } = ewmaChartSd(m, ref?.n, policy.ewmaLambda);
-			if (s1 === n) varianceFactor[stat === 'T²' ? 't2' : 'q'] = inflation?.factor ?? null;
+			const key = stat === 'T²' ? 't2' : 'q';
+			const m = ref?.[key];
+			if (!rb?.drift || !m) continue;
+			// The drift statistic the alarm rules use (EWMA of normal scores, alarm-rules.ts), drawn
+			// back in ratio units so that it shares the chart's axis with the wafers (the map is monotone:
+			// the line crosses its limit exactly when the rule fires).
+			const scale = scoreScale(rb.shape[key]);
+			const series = seg.map((r) => scale.score(r[field] as number));
+			const { sd, inflation } = driftChartSd(m, ref?.n, policy.ewmaLambda);
+			if (s1 === n) varianceFactor[key] = inflation?.factor ?? null;
 			if (s1 === n && inflation && ref?.n) acf = { source: ref.acfSource ?? 'golden', n: ref.n };
-			const chart = ewma(series, { lambda: policy.ewmaLambda, L: policy.ewmaL, mean: m.mean, sd });
+			const chart = driftChart(series, { lambda: policy.ewmaLambda, L: design.driftL, sd });
 			for (let i = 0; i < seg.length; i++) {
-				out[s0 + i] = chart.values[i];
-				up[s0 + i] = chart.upper[i];
+				out[s0 + i] = scale.ratio(chart.values[i]);
+				up[s0 + i] = scale.ratio(chart.upper[i]);
 			}
 			// The forecast only for the newest segment, and only with enough wafers for a trend.
 			if (s1 === n && seg.length >= 20) {
@@ -238,7 +250,7 @@ export async function getChamberSeries(q: { chamberId: number; recipeStepId: num
 		ewmaQ: finite(ewmaQ.slice(w)),
 		ewmaT2Upper: finite(upT2.slice(w)),
 		ewmaQUpper: finite(upQ.slice(w)),
-		ewma: { lambda: policy.ewmaLambda, L: policy.ewmaL, varianceFactor, acf },
+		ewma: { lambda: policy.ewmaLambda, L: Math.round(design.driftL * 100) / 100, varianceFactor, acf },
 		forecasts,
 		baselines: baselineRows.map((b) => ({
 			id: b.id,

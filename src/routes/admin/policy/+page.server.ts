@@ -1,21 +1,28 @@
 import { fail } from '@sveltejs/kit';
-import { putSetting } from '$lib/server/settings';
+import { AlarmPolicy, putSetting } from '$lib/server/settings';
 import { MAINTENANCE_KINDS } from '$lib/server/maintenance';
 import { policyFromForm, policyState } from '$lib/server/views/policy-view';
+import { designRules } from '$lib/monitoring/alarm-rules';
 import type { Actions, PageServerLoad } from './$types';
 
-export const load: PageServerLoad = async () => ({
-	alarm: await policyState('alarm_policy'),
-	baseline: await policyState('baseline_policy'),
-	ingest: await policyState('ingest_policy'),
-	maintenanceKinds: MAINTENANCE_KINDS
-});
+export const load: PageServerLoad = async () => {
+	const alarm = await policyState('alarm_policy');
+	// What the budget makes of each rule, shown beside the setting.
+	const d = designRules(AlarmPolicy.parse(alarm.value));
+	return {
+		alarm,
+		alarmDesign: { grossScore: d.grossScore, warningProbability: d.warningProbability, driftArl: d.driftArl, driftL: d.driftL },
+		baseline: await policyState('baseline_policy'),
+		ingest: await policyState('ingest_policy'),
+		maintenanceKinds: MAINTENANCE_KINDS
+	};
+};
 
 export const actions: Actions = {
 	alarm: async ({ request, locals }) => {
 		const value = policyFromForm(await request.formData(), {
 			booleans: ['singleEnabled', 'runEnabled', 'ewmaEnabled', 'fleetEnabled'],
-			numbers: ['runK', 'runM', 'ewmaLambda', 'ewmaL', 'fleetWindow']
+			numbers: ['falseAlarmsPer10k', 'runK', 'runM', 'ewmaLambda', 'clearAfter', 'reopenFactor', 'fleetWindow']
 		});
 		if (typeof value.runK === 'number' && typeof value.runM === 'number' && value.runK > value.runM)
 			return fail(400, { action: 'alarm', errors: { runK: 'k cannot be larger than m (k of the last m wafers).' }, values: value });
