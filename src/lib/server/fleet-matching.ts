@@ -11,7 +11,7 @@
  */
 import type { Knex } from 'knex';
 import { compareChambers, fitFleetReference, FLEET_DEFAULTS, type FleetComparison, type FleetReference } from '../monitoring/index.ts';
-import { raiseOrExtend } from './alarms.ts';
+import { clearEpisode, LIVE_STATES, raiseOrExtend } from './alarms.ts';
 import { BaselineError, createDraftBaseline } from './baselines.ts';
 import { db } from './db.ts';
 import { decodeValues } from './feature-values.ts';
@@ -260,11 +260,17 @@ export async function runFleetMatching(
 				flagged: m.flagged,
 				separating_json: JSON.stringify(m.separatingFeatures)
 			});
-			if (!m.flagged) continue;
+			if (!m.flagged) {
+				// Back within the fleet: its fleet episode ends (wafers never clear a fleet alarm; a run does).
+				const live = await trx('alarms').where({ chamber_id: w.id, recipe_step_id: recipeStepId, rule: 'fleet' }).whereIn('state', LIVE_STATES).first('id');
+				if (live) await clearEpisode(trx, live.id, at, 'back within the fleet at the latest fleet match');
+				continue;
+			}
 			result.flagged.push(m.chamberId);
 			if (!policy.fleetEnabled) continue;
 			const named = m.separatingFeatures.filter((f) => f.flagged);
 			const r = await raiseOrExtend(trx, {
+				leading: named.map((f) => f.feature),
 				chamberId: w.id,
 				recipeStepId,
 				baselineId: fleet.id,
@@ -280,7 +286,7 @@ export async function runFleetMatching(
 					separating: named.map((f) => f.feature),
 					separatingDetail: named.map((f) => ({ feature: f.feature, z: f.z, offsetSd: f.offsetSd, qValue: f.qValue }))
 				}
-			});
+			}, { reopenFactor: policy.reopenFactor });
 			if (r.opened) result.alarmsOpened.push(r.id);
 		}
 	});
