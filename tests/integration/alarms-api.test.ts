@@ -80,10 +80,10 @@ describe('GET /api/alarms', () => {
 
 	it('is open to a read token and a viewer; acknowledging needs an engineer’s session', () => {
 		const u = new URL('http://x/api/alarms');
-		expect(decide('/api/alarms', 'GET', u, null, false, { scope: 'read' })).toEqual({ allow: true });
+		expect(decide('/api/alarms', 'GET', u, null, false, { scopes: ['read'], owner: null })).toEqual({ allow: true });
 		expect(decide('/api/alarms', 'GET', u, 'viewer', false)).toEqual({ allow: true });
 		expect(decide('/api/alarms/acknowledge', 'POST', u, 'viewer', false).allow).toBe(false);
-		expect(decide('/api/alarms/acknowledge', 'POST', u, null, false, { scope: 'read' }).allow).toBe(false);
+		expect(decide('/api/alarms/acknowledge', 'POST', u, null, false, { scopes: ['read'], owner: null }).allow).toBe(false);
 		expect(decide('/api/alarms/acknowledge', 'POST', u, 'engineer', false)).toEqual({ allow: true });
 	});
 });

@@ -51,7 +51,10 @@ describe('fleet matching on a new installation', () => {
 
 	it('builds the model from approved baselines only (golden flag unset) and flags nothing on an in-family fleet', async () => {
 		for (let ci = 2; ci < C; ci++) await approveFor(ci, 100 + ci, T0);
-		expect(Number((await env.k('wafer_steps').where({ golden: true }).count({ n: '*' }).first())!.n)).toBe(0);
+		// Approval marks the training wafers golden; unset the flag so the model is shown to come from
+		// the approved baselines' own record (baseline_training_wafers), not from the flag.
+		expect(Number((await env.k('wafer_steps').where({ golden: true }).count({ n: '*' }).first())!.n)).toBeGreaterThan(0);
+		await env.k('wafer_steps').update({ golden: false });
 		for (let ci = 0; ci < C; ci++)
 			await insertWaferSteps(env.k, { chamberId: fab.chamberIds[ci], recipeStepId: fab.recipeStepId, rows: latentRows(25, P, 500 + ci), start: T0 + 2 * HOUR, prefix: `r${ci}` });
 		const r = await runFleetMatching(fab.recipeStepId, T0 + 10 * HOUR, env.k, { trigger: 'manual' });
