@@ -1,14 +1,17 @@
 import { brokenStickComponents } from './components';
+import { crossValidatedStatistics, defaultFolds, type CrossValidatedStatistics } from './cross-validation';
 import { MonitoringInputError } from './errors';
 import {
+	momentMatchedChiSquare,
 	phiLimit,
 	phiParameters,
 	qLimit,
 	residualMoments,
+	scaledChiSquareUpper,
 	t2Limit,
 	type QLimitMethod
 } from './limits';
-import type { BaselineModel } from './model';
+import type { BaselineModel, LimitCalibration } from './model';
 import { decompose, type PcaRoute } from './pca';
 import { DEFAULT_SCALE_FLOOR, fitScaling, type Row, type ScaleFloor, type ScalingMethod } from './scaling';
 
@@ -30,6 +33,20 @@ export interface FitOptions {
 	route?: PcaRoute;
 	/** Near-zero-variance floor; default {@link DEFAULT_SCALE_FLOOR}. */
 	scaleFloor?: Partial<ScaleFloor>;
+	/**
+	 * How the limits are set: `cross-validated` (default; {@link calibrateLimits}) or `theory` (the
+	 * large-sample formulas on the golden eigenvalues, which treat them as exact — too wide or too
+	 * tight at small n and when n < p; kept for reference and for the cross-validation refits).
+	 */
+	limits?: 'cross-validated' | 'theory';
+	/** Folds of the cross-validation; default {@link defaultFolds} (leave-one-out up to 40 rows, then 10). */
+	folds?: number;
+}
+
+/** A fitted model and the out-of-sample golden statistics its limits came from (null with theory limits). */
+export interface DetailedFit {
+	model: BaselineModel;
+	crossValidation: CrossValidatedStatistics | null;
 }
 
 function checkAlpha(name: string, a: number): void {
@@ -37,25 +54,10 @@ function checkAlpha(name: string, a: number): void {
 }
 
 /**
- * Fit a PCA baseline on golden wafers: scaling, components, T², Q and φ limits.
- *
- * Formula: Z = (X − 1 meanᵀ) diag(s)⁻¹; S = ZᵀZ/(n − 1) = P Λ Pᵀ; keep k components; limits
- * T²_α = k(n−1)(n+1)/(n(n−k)) F_α(k, n−k) (Tracy, Young & Mason 1992), Q_α after Jackson &
- * Mudholkar (1979) or Box (1954), φ after Yue & Qin (2001), each at α and at the warning α.
- * Source: Jackson (1991) "A User's Guide to Principal Components"; MacGregor & Kourti (1995)
- * "Statistical process control of multivariate processes", Control Eng. Practice 3:403.
- *
- * @param rows golden rows (n ≥ 3), each one value per feature, all finite
- * @param options see {@link FitOptions}
- * @returns the fitted model
- * @throws MonitoringInputError on a missing/non-finite value (naming the feature and row), a row of
- *   the wrong length, duplicate feature names, too few rows, or a k that leaves no T² or Q limit;
- *   RangeError on a bad α
- * @example
- * const m = fitBaseline([[1, 2], [2, 4.1], [3, 5.9], [4, 8.2]], { featureNames: ['a', 'b'], components: 1 });
- * m.k // → 1
+ * The fit with the large-sample limits (the `theory` limits of {@link FitOptions}); see
+ * {@link fitBaseline} for the formulas.
  */
-export function fitBaseline(rows: readonly Row[], options: FitOptions): BaselineModel {
+function fitTheory(rows: readonly Row[], options: FitOptions): BaselineModel {
 	const featureNames = [...options.featureNames];
 	const alpha = options.alpha ?? 0.01;
 	const warningAlpha = options.warningAlpha ?? 0.05;
@@ -136,7 +138,132 @@ export function fitBaseline(rows: readonly Row[], options: FitOptions): Baseline
 			phi: phiLimit(phi, alpha),
 			t2Warning: t2Limit(k, n, warningAlpha),
 			qWarning: qLimit(tail, warningAlpha, qMethod),
-			phiWarning: phiLimit(phi, warningAlpha)
-		}
+			phiWarning: phiLimit(phi, warningAlpha),
+			t2State: t2Limit(k, n, alpha / 2),
+			qState: qLimit(tail, alpha / 2, qMethod)
+		},
+		limitCalibration: 'theory',
+		limitMethod:
+			`theory: T² from the F law of a new observation (Tracy, Young & Mason 1992), Q from the golden residual eigenvalues (${qMethod}), ` +
+			'φ after Yue & Qin (2001); the golden eigenvalues are treated as exact. The wafer state is beyond limit when T² or Q exceeds its limit at α/2 (Bonferroni).'
+	};
+}
+
+/**
+ * Fit a PCA baseline on golden wafers: scaling, components, and T², Q and φ limits — by default
+ * calibrated on cross-validated (out-of-sample) golden statistics ({@link calibrateLimits}).
+ *
+ * Formula: Z = (X − 1 meanᵀ) diag(s)⁻¹; S = ZᵀZ/(n − 1) = P Λ Pᵀ; keep k components; limits as
+ * {@link calibrateLimits} (default) or the large-sample formulas: T²_α = k(n−1)(n+1)/(n(n−k))
+ * F_α(k, n−k) (Tracy, Young & Mason 1992), Q_α after Jackson & Mudholkar (1979) or Box (1954), φ after
+ * Yue & Qin (2001). Either way the wafer's combined state uses T² and Q at α/2 each (Bonferroni), so
+ * an in-control wafer is beyond limit with probability ≤ α, not 2α.
+ * Source: Jackson (1991) "A User's Guide to Principal Components"; MacGregor & Kourti (1995)
+ * "Statistical process control of multivariate processes", Control Eng. Practice 3:403.
+ *
+ * @param rows golden rows (n ≥ 3), each one value per feature, all finite
+ * @param options see {@link FitOptions}
+ * @returns the fitted model (its `limitMethod` says how the limits were set)
+ * @throws MonitoringInputError on a missing/non-finite value (naming the feature and row), a row of
+ *   the wrong length, duplicate feature names, too few rows, or a k that leaves no T² or Q limit;
+ *   RangeError on a bad α
+ * @example
+ * const m = fitBaseline([[1, 2], [2, 4.1], [3, 5.9], [4, 8.2]], { featureNames: ['a', 'b'], components: 1 });
+ * m.k // → 1
+ */
+export function fitBaseline(rows: readonly Row[], options: FitOptions): BaselineModel {
+	return fitBaselineDetailed(rows, options).model;
+}
+
+/**
+ * {@link fitBaseline}, also returning the cross-validated golden statistics (for Phase I screening,
+ * {@link phaseOne}, and the drift charts' reference) so they are computed once.
+ *
+ * Source: as {@link fitBaseline}.
+ *
+ * @param rows golden rows
+ * @param options see {@link FitOptions}
+ * @returns the model and its cross-validated statistics (null when the limits are theory)
+ * @throws as {@link fitBaseline}
+ * @example fitBaselineDetailed(rows, { featureNames }).crossValidation?.folds // → n (n ≤ 40)
+ */
+export function fitBaselineDetailed(rows: readonly Row[], options: FitOptions): DetailedFit {
+	const mode = options.limits ?? 'cross-validated';
+	if (mode !== 'cross-validated' && mode !== 'theory') throw new RangeError(`unknown limits "${mode}"`);
+	const theory = fitTheory(rows, options);
+	if (mode === 'theory') return { model: theory, crossValidation: null };
+	const n = rows.length;
+	const folds = options.folds ?? defaultFolds(n);
+	let cv: CrossValidatedStatistics;
+	try {
+		cv = crossValidatedStatistics(rows, theory, folds);
+		return { model: calibrateLimits(theory, cv), crossValidation: cv };
+	} catch (e) {
+		if (!(e instanceof MonitoringInputError)) throw e;
+		// Too few rows to refit k components without a fold, or out-of-sample statistics that do not
+		// vary: the theory limits stay, and the model says so.
+		return {
+			model: { ...theory, limitMethod: `${theory.limitMethod} Cross-validated limits were not possible: ${e.message}.` },
+			crossValidation: null
+		};
+	}
+}
+
+/**
+ * Limits calibrated on cross-validated (out-of-sample) golden statistics.
+ *
+ * Each golden wafer's T² and Q come from a model fitted without it ({@link crossValidatedStatistics}),
+ * so they behave like a new wafer's — unlike in-sample statistics, whose Q is biased low when n < p
+ * (the components absorb the wafer's own noise) and whose large-sample limits treat the golden
+ * eigenvalues as exact. Formula: Q_α = g_Q χ²_α(h_Q) with g_Q, h_Q matched to the mean and variance of
+ * the cross-validated Q (Nomikos & MacGregor 1995, §4.2, there on in-sample values; Box 1954); T²_α =
+ * g_T χ²_α(h_T) likewise on the cross-validated T²; φ = Q/Q_α + T²/T²_α (Yue & Qin 2001, with the
+ * calibrated limits as normalisers) and φ_α = g_φ χ²_α(h_φ) matched on the cross-validated φ. Warning
+ * limits: the same laws at the warning α; state limits: T² and Q at α/2 each (Bonferroni), so a
+ * wafer's combined state is beyond limit with probability ≤ α when in control.
+ * Calibration: bench/calibration.ts (n 20–300, p 12–1,000, k = 3, 50 golden sets a cell) and
+ * tests/unit/monitoring/calibration.test.ts; the figures are in README.md.
+ *
+ * @param model a model with theory limits (its k, n and α are used)
+ * @param cv the out-of-sample T² and Q of its golden rows
+ * @returns a new model with calibrated limits, φ parameters, `limitCalibration` and `limitMethod`
+ * @throws MonitoringInputError when the out-of-sample statistics do not vary
+ * @example calibrateLimits(theoryModel, crossValidatedStatistics(rows, theoryModel, 20)).limitCalibration // → 'cross-validated'
+ */
+export function calibrateLimits(model: BaselineModel, cv: CrossValidatedStatistics): BaselineModel {
+	const { alpha, warningAlpha } = model;
+	const t2Law = momentMatchedChiSquare(cv.t2);
+	const qLaw = momentMatchedChiSquare(cv.q);
+	const t2 = scaledChiSquareUpper(t2Law, alpha);
+	const q = scaledChiSquareUpper(qLaw, alpha);
+	const phiCv = cv.q.map((v, i) => v / q + cv.t2[i] / t2);
+	const phiLaw = momentMatchedChiSquare(phiCv);
+	const calibration: LimitCalibration = {
+		folds: cv.folds,
+		t2: { g: t2Law.g, h: t2Law.h, mean: t2Law.mean, variance: t2Law.variance },
+		q: { g: qLaw.g, h: qLaw.h, mean: qLaw.mean, variance: qLaw.variance },
+		phi: { g: phiLaw.g, h: phiLaw.h, mean: phiLaw.mean, variance: phiLaw.variance }
+	};
+	const how = cv.folds === cv.t2.length ? 'leave-one-out' : `${cv.folds}-fold`;
+	return {
+		...model,
+		phi: { t2Weight: 1 / t2, qWeight: 1 / q, g: phiLaw.g, h: phiLaw.h },
+		limits: {
+			t2,
+			q,
+			phi: scaledChiSquareUpper(phiLaw, alpha),
+			t2Warning: scaledChiSquareUpper(t2Law, warningAlpha),
+			qWarning: scaledChiSquareUpper(qLaw, warningAlpha),
+			phiWarning: scaledChiSquareUpper(phiLaw, warningAlpha),
+			t2State: scaledChiSquareUpper(t2Law, alpha / 2),
+			qState: scaledChiSquareUpper(qLaw, alpha / 2)
+		},
+		limitCalibration: 'cross-validated',
+		crossValidation: calibration,
+		limitMethod:
+			`cross-validated (${how}, ${cv.t2.length} golden wafers each scored by a model fitted without it): ` +
+			`Q limit g·χ²(h) matched to the out-of-sample Q (g = ${calibration.q.g.toPrecision(4)}, h = ${calibration.q.h.toPrecision(4)}; Nomikos & MacGregor 1995), ` +
+			`T² limit likewise on the out-of-sample T² (g = ${calibration.t2.g.toPrecision(4)}, h = ${calibration.t2.h.toPrecision(4)}), ` +
+			'φ = Q/Q-limit + T²/T²-limit matched the same way (Yue & Qin 2001). The wafer state is beyond limit when T² or Q exceeds its limit at α/2 (Bonferroni).'
 	};
 }

@@ -23,14 +23,24 @@ export {
 	residualMoments,
 	phiParameters,
 	phiLimit,
+	momentMatchedChiSquare,
+	scaledChiSquareUpper,
+	type ScaledChiSquare,
 	type QLimitMethod,
 	type ResidualMoments,
 	type PhiParameters
 } from './limits';
-export type { BaselineModel, ModelLimits } from './model';
-export { fitBaseline, type FitOptions } from './baseline';
-export { crossValidatedScores, type CrossValidatedScores } from './cross-validation';
-export { scoreWafer, scoreBatch, rowFromRecord, type WaferScore, type BatchScores } from './scoring';
+export type { BaselineModel, ModelLimits, LimitCalibration, MatchedLaw } from './model';
+export { fitBaseline, fitBaselineDetailed, calibrateLimits, type FitOptions, type DetailedFit } from './baseline';
+export {
+	crossValidatedScores,
+	crossValidatedStatistics,
+	defaultFolds,
+	type CrossValidatedScores,
+	type CrossValidatedStatistics,
+	type CrossValidationSpec
+} from './cross-validation';
+export { scoreWafer, scoreBatch, rowFromRecord, stateRatio, beyondLimit, type WaferScore, type BatchScores } from './scoring';
 export {
 	contributions,
 	rankContributions,

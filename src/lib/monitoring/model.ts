@@ -10,6 +10,29 @@ export interface ModelLimits {
 	t2Warning: number;
 	qWarning: number;
 	phiWarning: number;
+	/**
+	 * T² and Q limits at α/2 (Bonferroni) that decide the wafer's combined state, so that an in-control
+	 * wafer's state is beyond limit with probability ≤ α. Absent on models stored before them (their
+	 * state is beyond limit when any of T², Q, φ exceeds its α limit, as it always was).
+	 */
+	t2State?: number;
+	qState?: number;
+}
+
+/** A scaled χ² law matched to out-of-sample golden statistics. */
+export interface MatchedLaw {
+	g: number;
+	h: number;
+	mean: number;
+	variance: number;
+}
+
+/** How a cross-validated model's limits were calibrated. */
+export interface LimitCalibration {
+	folds: number;
+	t2: MatchedLaw;
+	q: MatchedLaw;
+	phi: MatchedLaw;
 }
 
 /**
@@ -53,4 +76,10 @@ export interface BaselineModel {
 	residual: ResidualMoments;
 	phi: PhiParameters;
 	limits: ModelLimits;
+	/** `cross-validated` or `theory`; absent on models stored before (theory limits, old state rule). */
+	limitCalibration?: 'cross-validated' | 'theory';
+	/** In words: how each limit was set, with sources. Absent on models stored before. */
+	limitMethod?: string;
+	/** The laws matched to the cross-validated golden statistics (cross-validated models only). */
+	crossValidation?: LimitCalibration;
 }
