@@ -2,13 +2,13 @@ import { brokenStickComponents } from './components';
 import { crossValidatedStatistics, defaultFolds, type CrossValidatedStatistics } from './cross-validation';
 import { MonitoringInputError } from './errors';
 import {
-	momentMatchedChiSquare,
+		cubeRootLaw,
+	cubeRootPredictionLimit,
 	phiLimit,
 	phiParameters,
 	qLimit,
 	residualMoments,
-	scaledChiSquareUpper,
-	t2Limit,
+		t2Limit,
 	type QLimitMethod
 } from './limits';
 import type { BaselineModel, LimitCalibration } from './model';
@@ -214,56 +214,71 @@ export function fitBaselineDetailed(rows: readonly Row[], options: FitOptions): 
  *
  * Each golden wafer's T² and Q come from a model fitted without it ({@link crossValidatedStatistics}),
  * so they behave like a new wafer's — unlike in-sample statistics, whose Q is biased low when n < p
- * (the components absorb the wafer's own noise) and whose large-sample limits treat the golden
- * eigenvalues as exact. Formula: Q_α = g_Q χ²_α(h_Q) with g_Q, h_Q matched to the mean and variance of
- * the cross-validated Q (Nomikos & MacGregor 1995, §4.2, there on in-sample values; Box 1954); T²_α =
- * g_T χ²_α(h_T) likewise on the cross-validated T²; φ = Q/Q_α + T²/T²_α (Yue & Qin 2001, with the
- * calibrated limits as normalisers) and φ_α = g_φ χ²_α(h_φ) matched on the cross-validated φ. Warning
- * limits: the same laws at the warning α; state limits: T² and Q at α/2 each (Bonferroni), so a
- * wafer's combined state is beyond limit with probability ≤ α when in control.
- * Calibration: bench/calibration.ts (n 20–300, p 12–1,000, k = 3, 50 golden sets a cell) and
- * tests/unit/monitoring/calibration.test.ts; the figures are in README.md.
+ * (the components absorb the wafer's own noise) and whose large-sample Q limits treat the golden
+ * eigenvalues as exact (at n = 20 they gave 4.8–6.4 % beyond Q at α = 1 %; at n ≥ 50 with p = 1,000
+ * 0.0–0.2 %, far too wide to see a leak).
+ * Formula:
+ * - Q_α and φ_α: a prediction limit on the cube roots of the cross-validated values,
+ *   (ū + t_α((n−1)/2) s_u √(1 + 2/n))³ ({@link cubeRootPredictionLimit}; Wilson & Hilferty 1931,
+ *   Hahn & Meeker 1991), with φ = Q/Q_α + T²/T²_α (Yue & Qin 2001, each statistic over its limit).
+ * - T²_α: the F limit of a new wafer, k(n−1)(n+1)/(n(n−k)) F_α(k, n−k) (Tracy, Young & Mason 1992),
+ *   which already allows for the golden set's size, times c = min(1, c₉₀), c₉₀ the upper 90 % bound of
+ *   mean(cross-validated T²) / (the F law's mean k(n−1)(n+1)/(n(n−k−2))): when n < p the new wafers'
+ *   scores shrink and the limit follows them down, never up.
+ * - Warning limits: the same at the warning α; state limits: T² and Q at α/2 each (Bonferroni).
+ * Calibration: bench/calibration.ts (n 20–300 × p 12–1,000, k = 3, 50 golden sets a cell) and
+ * tests/unit/monitoring/calibration.test.ts; figures in README.md.
  *
  * @param model a model with theory limits (its k, n and α are used)
  * @param cv the out-of-sample T² and Q of its golden rows
- * @returns a new model with calibrated limits, φ parameters, `limitCalibration` and `limitMethod`
+ * @returns a new model with calibrated limits, φ weights, `limitCalibration`, `crossValidation` and `limitMethod`
  * @throws MonitoringInputError when the out-of-sample statistics do not vary
  * @example calibrateLimits(theoryModel, crossValidatedStatistics(rows, theoryModel, 20)).limitCalibration // → 'cross-validated'
  */
 export function calibrateLimits(model: BaselineModel, cv: CrossValidatedStatistics): BaselineModel {
-	const { alpha, warningAlpha } = model;
-	const t2Law = momentMatchedChiSquare(cv.t2);
-	const qLaw = momentMatchedChiSquare(cv.q);
-	const t2 = scaledChiSquareUpper(t2Law, alpha);
-	const q = scaledChiSquareUpper(qLaw, alpha);
-	const phiCv = cv.q.map((v, i) => v / q + cv.t2[i] / t2);
-	const phiLaw = momentMatchedChiSquare(phiCv);
+	const { alpha, warningAlpha, k, n } = model;
+	const m = cv.t2.length;
+	let cvMean = 0;
+	for (let i = 0; i < m; i++) cvMean += cv.t2[i] / m;
+	let ss = 0;
+	for (let i = 0; i < m; i++) ss += (cv.t2[i] - cvMean) ** 2;
+	const se = Math.sqrt(ss / (m - 1) / m);
+	const theoryMean = n - k - 2 > 0 ? (k * (n - 1) * (n + 1)) / (n * (n - k - 2)) : Infinity;
+	// 1.2816 = z at 10 % (NIST/SEMATECH e-Handbook §1.3.6.7.1): the shrink applies only when clear.
+	const factor = Math.min(1, (cvMean + 1.2816 * se) / theoryMean);
+	const t2At = (a: number) => factor * t2Limit(k, n, a);
+	const qLaw = cubeRootLaw(cv.q);
+	const t2 = t2At(alpha);
+	const q = cubeRootPredictionLimit(qLaw, alpha);
+	const phiLaw = cubeRootLaw(cv.q.map((v, i) => v / q + cv.t2[i] / t2));
 	const calibration: LimitCalibration = {
 		folds: cv.folds,
-		t2: { g: t2Law.g, h: t2Law.h, mean: t2Law.mean, variance: t2Law.variance },
-		q: { g: qLaw.g, h: qLaw.h, mean: qLaw.mean, variance: qLaw.variance },
-		phi: { g: phiLaw.g, h: phiLaw.h, mean: phiLaw.mean, variance: phiLaw.variance }
+		t2: { cvMean, theoryMean, factor },
+		q: { ...qLaw },
+		phi: { ...phiLaw }
 	};
-	const how = cv.folds === cv.t2.length ? 'leave-one-out' : `${cv.folds}-fold`;
+	const how = cv.folds === m ? 'leave-one-out' : `${cv.folds}-fold`;
 	return {
 		...model,
-		phi: { t2Weight: 1 / t2, qWeight: 1 / q, g: phiLaw.g, h: phiLaw.h },
+		// g and h of φ are not used by cross-validated limits; kept as the χ² law with φ's moments.
+		phi: { t2Weight: 1 / t2, qWeight: 1 / q, g: model.phi.g, h: model.phi.h },
 		limits: {
 			t2,
 			q,
-			phi: scaledChiSquareUpper(phiLaw, alpha),
-			t2Warning: scaledChiSquareUpper(t2Law, warningAlpha),
-			qWarning: scaledChiSquareUpper(qLaw, warningAlpha),
-			phiWarning: scaledChiSquareUpper(phiLaw, warningAlpha),
-			t2State: scaledChiSquareUpper(t2Law, alpha / 2),
-			qState: scaledChiSquareUpper(qLaw, alpha / 2)
+			phi: cubeRootPredictionLimit(phiLaw, alpha),
+			t2Warning: t2At(warningAlpha),
+			qWarning: cubeRootPredictionLimit(qLaw, warningAlpha),
+			phiWarning: cubeRootPredictionLimit(phiLaw, warningAlpha),
+			t2State: t2At(alpha / 2),
+			qState: cubeRootPredictionLimit(qLaw, alpha / 2)
 		},
 		limitCalibration: 'cross-validated',
 		crossValidation: calibration,
 		limitMethod:
-			`cross-validated (${how}, ${cv.t2.length} golden wafers each scored by a model fitted without it): ` +
-			`Q limit g·χ²(h) matched to the out-of-sample Q (g = ${calibration.q.g.toPrecision(4)}, h = ${calibration.q.h.toPrecision(4)}; Nomikos & MacGregor 1995), ` +
-			`T² limit likewise on the out-of-sample T² (g = ${calibration.t2.g.toPrecision(4)}, h = ${calibration.t2.h.toPrecision(4)}), ` +
-			'φ = Q/Q-limit + T²/T²-limit matched the same way (Yue & Qin 2001). The wafer state is beyond limit when T² or Q exceeds its limit at α/2 (Bonferroni).'
+			`cross-validated (${how}: each of the ${m} golden wafers scored by a model fitted without it). ` +
+			'Q: prediction limit on the cube roots of the out-of-sample Q (Wilson & Hilferty 1931; Hahn & Meeker 1991). ' +
+			`T²: F limit of a new wafer (Tracy, Young & Mason 1992) × ${factor.toFixed(3)} (out-of-sample T² mean ${cvMean.toPrecision(3)} vs ${theoryMean.toPrecision(3)} expected; never above 1). ` +
+			'φ = Q/Q-limit + T²/T²-limit (Yue & Qin 2001), limit as for Q. ' +
+			'The wafer state is beyond limit when T² or Q exceeds its limit at α/2 (Bonferroni), so at most α of in-control wafers.'
 	};
 }

@@ -4,6 +4,7 @@ export { fUpper, chiSquareUpper, normalUpper, tTwoSided } from './quantiles';
 export {
 	assertFiniteRow,
 	fitScaling,
+	featureResolution,
 	scaleRow,
 	DEFAULT_SCALE_FLOOR,
 	type Row,
@@ -25,12 +26,15 @@ export {
 	phiLimit,
 	momentMatchedChiSquare,
 	scaledChiSquareUpper,
+	cubeRootLaw,
+	cubeRootPredictionLimit,
 	type ScaledChiSquare,
+	type CubeRootLaw,
 	type QLimitMethod,
 	type ResidualMoments,
 	type PhiParameters
 } from './limits';
-export type { BaselineModel, ModelLimits, LimitCalibration, MatchedLaw } from './model';
+export type { BaselineModel, ModelLimits, LimitCalibration, CubeRootSummary } from './model';
 export { fitBaseline, fitBaselineDetailed, calibrateLimits, type FitOptions, type DetailedFit } from './baseline';
 export {
 	crossValidatedScores,

@@ -19,20 +19,25 @@ export interface ModelLimits {
 	qState?: number;
 }
 
-/** A scaled χ² law matched to out-of-sample golden statistics. */
-export interface MatchedLaw {
-	g: number;
-	h: number;
+/** The cube-root law of one cross-validated statistic (see cubeRootLaw in limits.ts). */
+export interface CubeRootSummary {
 	mean: number;
-	variance: number;
+	sd: number;
+	n: number;
+	nu: number;
 }
 
 /** How a cross-validated model's limits were calibrated. */
 export interface LimitCalibration {
 	folds: number;
-	t2: MatchedLaw;
-	q: MatchedLaw;
-	phi: MatchedLaw;
+	/**
+	 * T²: mean of the cross-validated T², the mean of the F law of a new wafer
+	 * (k(n−1)(n+1)/(n(n−k−2))), and the factor min(1, upper 90 % bound of their ratio) applied to the
+	 * F limits.
+	 */
+	t2: { cvMean: number; theoryMean: number; factor: number };
+	q: CubeRootSummary;
+	phi: CubeRootSummary;
 }
 
 /**
