@@ -98,3 +98,12 @@ export {
 	type LeakSignature
 } from './leak-signature';
 export { serializeModel, deserializeModel, modelToBlob, modelFromBlob } from './serialize';
+export {
+	phaseOne,
+	phaseOneT2Limit,
+	goldenSetWarnings,
+	advisedGoldenWafers,
+	type PhaseOneResult,
+	type PhaseOneWafer,
+	type GoldenSetFacts
+} from './phase-one';
