@@ -37,12 +37,14 @@ export function cell(n: number, p: number, sets: number, seed: number) {
 	const t2: number[] = [];
 	const q: number[] = [];
 	const st: number[] = [];
+	const phi: number[] = [];
 	for (let s = 0; s < sets; s++) {
 		const law = makeLaw(p, seed + 7919 * s);
 		const model = fit(rowsOf(draw(law, n), p), p);
 		const r = scoreBatch(model, draw(law, NEW));
-		let a = 0, b = 0, c = 0;
+		let a = 0, b = 0, c = 0, d = 0;
 		for (let i = 0; i < NEW; i++) {
+			if (r.phi[i] > model.limits.phi) d++;
 			if (r.t2[i] > model.limits.t2) a++;
 			if (r.q[i] > model.limits.q) b++;
 			if (beyond(model, r.t2[i], r.q[i], r.phi[i])) c++;
@@ -50,8 +52,9 @@ export function cell(n: number, p: number, sets: number, seed: number) {
 		t2.push(a / NEW);
 		q.push(b / NEW);
 		st.push(c / NEW);
+		phi.push(d / NEW);
 	}
-	return { t2: meanSd(t2), q: meanSd(q), state: meanSd(st) };
+	return { t2: meanSd(t2), q: meanSd(q), state: meanSd(st), phi: meanSd(phi) };
 }
 
 export function power(sets: number, seed: number) {
@@ -81,11 +84,11 @@ const pct = (x: { mean: number; sd: number }) => `${(100 * x.mean).toFixed(2).pa
 async function main() {
 	const t0 = performance.now();
 	console.log(`limits: ${LIMITS}; ${SETS} golden sets per cell, ${NEW} new wafers each, k = 3, α = ${ALPHA}`);
-	console.log('   n      p |  T² beyond (sd over sets) |   Q beyond (sd)      | state beyond (sd)');
+	console.log('   n      p |  T² beyond (sd over sets) |   Q beyond (sd)      | state beyond (sd)    |   φ beyond (sd)');
 	for (const n of NS)
 		for (const p of PS) {
 			const c = cell(n, p, SETS, 1000 * n + p);
-			console.log(`${String(n).padStart(4)} ${String(p).padStart(6)} | ${pct(c.t2).padEnd(24)} | ${pct(c.q).padEnd(20)} | ${pct(c.state)}`);
+			console.log(`${String(n).padStart(4)} ${String(p).padStart(6)} | ${pct(c.t2).padEnd(24)} | ${pct(c.q).padEnd(20)} | ${pct(c.state).padEnd(20)} | ${pct(c.phi)}`);
 		}
 	const pw = power(SETS, 424242);
 	console.log(`power n = 30, p = 1000, 3-channel band of 10 noise-σ: Q ${pct(pw.q)}, state ${pct(pw.state)}`);

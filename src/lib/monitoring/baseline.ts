@@ -7,6 +7,7 @@ import {
 	phiLimit,
 	phiParameters,
 	qLimit,
+	qLimitThreeMoment,
 	residualMoments,
 		t2Limit,
 	type QLimitMethod
@@ -221,10 +222,13 @@ export function fitBaselineDetailed(rows: readonly Row[], options: FitOptions): 
  * - Q_α and φ_α: a prediction limit on the cube roots of the cross-validated values,
  *   (ū + t_α((n−1)/2) s_u √(1 + 2/n))³ ({@link cubeRootPredictionLimit}; Wilson & Hilferty 1931,
  *   Hahn & Meeker 1991), with φ = Q/Q_α + T²/T²_α (Yue & Qin 2001, each statistic over its limit).
+ *   When n > p, the wider of that and the three-moment law of the residual eigenvalues (Imhof 1961)
+ *   scaled to the mean of the cross-validated Q: the eigenvalues then give Q's shape, the
+ *   out-of-sample values its level.
  * - T²_α: the F limit of a new wafer, k(n−1)(n+1)/(n(n−k)) F_α(k, n−k) (Tracy, Young & Mason 1992),
- *   which already allows for the golden set's size, times c = min(1, c₉₀), c₉₀ the upper 90 % bound of
- *   mean(cross-validated T²) / (the F law's mean k(n−1)(n+1)/(n(n−k−2))): when n < p the new wafers'
- *   scores shrink and the limit follows them down, never up.
+ *   which already allows for the golden set's size, times c = min(1, mean(cross-validated T²) / the F
+ *   law's mean k(n−1)(n+1)/(n(n−k−2))): when n < p the new wafers' scores shrink and the limit follows
+ *   them down, never up.
  * - Warning limits: the same at the warning α; state limits: T² and Q at α/2 each (Bonferroni).
  * Calibration: bench/calibration.ts (n 20–300 × p 12–1,000, k = 3, 50 golden sets a cell) and
  * tests/unit/monitoring/calibration.test.ts; figures in README.md.
@@ -240,21 +244,25 @@ export function calibrateLimits(model: BaselineModel, cv: CrossValidatedStatisti
 	const m = cv.t2.length;
 	let cvMean = 0;
 	for (let i = 0; i < m; i++) cvMean += cv.t2[i] / m;
-	let ss = 0;
-	for (let i = 0; i < m; i++) ss += (cv.t2[i] - cvMean) ** 2;
-	const se = Math.sqrt(ss / (m - 1) / m);
 	const theoryMean = n - k - 2 > 0 ? (k * (n - 1) * (n + 1)) / (n * (n - k - 2)) : Infinity;
-	// 1.2816 = z at 10 % (NIST/SEMATECH e-Handbook §1.3.6.7.1): the shrink applies only when clear.
-	const factor = Math.min(1, (cvMean + 1.2816 * se) / theoryMean);
+	const factor = Math.min(1, cvMean / theoryMean);
 	const t2At = (a: number) => factor * t2Limit(k, n, a);
 	const qLaw = cubeRootLaw(cv.q);
+	// With n > p every residual eigenvalue is estimated and their spread gives Q's shape (few, uneven
+	// residual directions make a heavier tail than the cube-root normal law allows: at p = 12 the
+	// cube-root limit alone let 1.5–1.9 % of in-control wafers through); its scale comes from the
+	// out-of-sample Q. The wider of the two limits is used.
+	const tail = model.eigenvalues.subarray(k);
+	const fullRank = model.eigenvalues.length === model.p;
+	const qScale = qLaw.n > 0 ? cv.q.reduce((s, v) => s + v, 0) / qLaw.n / model.residual.theta1 : 1;
+	const qAt = (a: number) => Math.max(cubeRootPredictionLimit(qLaw, a), fullRank ? qScale * qLimitThreeMoment(tail, a) : 0);
 	const t2 = t2At(alpha);
-	const q = cubeRootPredictionLimit(qLaw, alpha);
+	const q = qAt(alpha);
 	const phiLaw = cubeRootLaw(cv.q.map((v, i) => v / q + cv.t2[i] / t2));
 	const calibration: LimitCalibration = {
 		folds: cv.folds,
 		t2: { cvMean, theoryMean, factor },
-		q: { ...qLaw },
+		q: { ...qLaw, shapeScale: fullRank ? qScale : null },
 		phi: { ...phiLaw }
 	};
 	const how = cv.folds === m ? 'leave-one-out' : `${cv.folds}-fold`;
@@ -267,10 +275,10 @@ export function calibrateLimits(model: BaselineModel, cv: CrossValidatedStatisti
 			q,
 			phi: cubeRootPredictionLimit(phiLaw, alpha),
 			t2Warning: t2At(warningAlpha),
-			qWarning: cubeRootPredictionLimit(qLaw, warningAlpha),
+			qWarning: qAt(warningAlpha),
 			phiWarning: cubeRootPredictionLimit(phiLaw, warningAlpha),
 			t2State: t2At(alpha / 2),
-			qState: cubeRootPredictionLimit(qLaw, alpha / 2)
+			qState: qAt(alpha / 2)
 		},
 		limitCalibration: 'cross-validated',
 		crossValidation: calibration,

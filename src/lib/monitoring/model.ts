@@ -32,11 +32,11 @@ export interface LimitCalibration {
 	folds: number;
 	/**
 	 * T²: mean of the cross-validated T², the mean of the F law of a new wafer
-	 * (k(n−1)(n+1)/(n(n−k−2))), and the factor min(1, upper 90 % bound of their ratio) applied to the
-	 * F limits.
+	 * (k(n−1)(n+1)/(n(n−k−2))), and the factor min(1, their ratio) applied to the F limits.
 	 */
 	t2: { cvMean: number; theoryMean: number; factor: number };
-	q: CubeRootSummary;
+	/** Q: its cube-root law, and (n > p) the factor scaling the residual-eigenvalue law to the out-of-sample mean. */
+	q: CubeRootSummary & { shapeScale: number | null };
 	phi: CubeRootSummary;
 }
 

@@ -6,6 +6,7 @@ import {
 	fitBaseline,
 	qLimitBox,
 	qLimitJacksonMudholkar,
+	qLimitThreeMoment,
 	scoreBatch,
 	scoreWafer,
 	t2Limit,
@@ -161,8 +162,11 @@ describe('limit formulas', () => {
 		const cv = m.crossValidation!;
 		expect(m.limitCalibration).toBe('cross-validated');
 		expect(cv.folds).toBe(30); // leave-one-out up to 40 wafers
-		expect(m.limits.q).toBe(cubeRootPredictionLimit(cv.q, m.alpha));
-		expect(m.limits.qState).toBe(cubeRootPredictionLimit(cv.q, m.alpha / 2));
+		// n > p: the wider of the cube-root limit and the scaled three-moment law of the residual eigenvalues.
+		const tail = m.eigenvalues.subarray(m.k);
+		const qAt = (a: number) => Math.max(cubeRootPredictionLimit(cv.q, a), cv.q.shapeScale! * qLimitThreeMoment(tail, a));
+		expect(m.limits.q).toBe(qAt(m.alpha));
+		expect(m.limits.qState).toBe(qAt(m.alpha / 2));
 		expect(m.limits.t2).toBeCloseTo(cv.t2.factor * t2Limit(m.k, m.n, m.alpha), 12);
 		expect(cv.t2.factor).toBeLessThanOrEqual(1);
 		expect(m.limitMethod).toMatch(/leave-one-out/);
