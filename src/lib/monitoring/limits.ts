@@ -321,7 +321,7 @@ export function cubeRootLaw(values: ArrayLike<number>): CubeRootLaw {
  * @param alpha upper-tail probability, 0 < α < 0.5
  * @returns the limit
  * @throws RangeError on a bad α
- * @example cubeRootPredictionLimit({ mean: 2, sd: 0.1, n: 21, nu: 10 }, 0.01) // → 11.25…
+ * @example cubeRootPredictionLimit({ mean: 2, sd: 0.1, n: 21, nu: 10 }, 0.01) // → 11.997… (scipy: (2 + t.ppf(0.99, 10) · 0.1 · √(1 + 2/21))³)
  */
 export function cubeRootPredictionLimit(law: CubeRootLaw, alpha: number): number {
 	if (!(alpha > 0 && alpha < 0.5)) throw new RangeError(`α must lie in (0, 0.5), got ${alpha}`);
