@@ -29,19 +29,25 @@ function beyond(model: BaselineModel, t2: number, q: number, phi: number): boole
 	return t2 > model.limits.t2 || q > model.limits.q || phi > model.limits.phi;
 }
 
-function fit(rows: Float64Array[], p: number): BaselineModel {
+function fit(rows: Float64Array[], p: number, limits = LIMITS): BaselineModel {
 	const names = Array.from({ length: p }, (_, j) => `ch${j}`);
-	return fitBaseline(rows, { featureNames: names, components: 3, alpha: ALPHA, limits: LIMITS } as Parameters<typeof fitBaseline>[1]);
+	return fitBaseline(rows, { featureNames: names, components: 3, alpha: ALPHA, limits } as Parameters<typeof fitBaseline>[1]);
 }
 
-export function cell(n: number, p: number, sets: number, seed: number) {
+/**
+ * One cell of the grid: `sets` golden sets of n wafers × p features (law seed + 7919·s), k = 3,
+ * α = 1 %, each scored on `newWafers` new in-control wafers; share beyond each limit per set, as
+ * mean, sd, min and max over the sets.
+ */
+export function cell(n: number, p: number, sets: number, seed: number, limits = LIMITS, newWafers = NEW) {
+	const NEW = newWafers;
 	const t2: number[] = [];
 	const q: number[] = [];
 	const st: number[] = [];
 	const phi: number[] = [];
 	for (let s = 0; s < sets; s++) {
 		const law = makeLaw(p, seed + 7919 * s);
-		const model = fit(rowsOf(draw(law, n), p), p);
+		const model = fit(rowsOf(draw(law, n), p), p, limits);
 		const r = scoreBatch(model, draw(law, NEW));
 		let a = 0, b = 0, c = 0, d = 0;
 		for (let i = 0; i < NEW; i++) {

@@ -14,7 +14,7 @@ import {
 	type BaselineModel
 } from '../../../src/lib/monitoring/index.ts';
 import { draw, makeLaw, meanSd, rowsOf } from '../../../bench/calibration-law.ts';
-import { backgroundBand } from '../../../bench/calibration.ts';
+import { backgroundBand, cell } from '../../../bench/calibration.ts';
 
 // CI-fast corners of the calibration grid of bench/calibration.ts (run that for the full grid of
 // n ∈ {20, 30, 50, 100, 300} × p ∈ {12, 60, 250, 1,000}, 50 golden sets a cell; figures in
@@ -28,26 +28,7 @@ const NEW = 400;
 const names = (p: number) => Array.from({ length: p }, (_, j) => `ch${j}`);
 
 function rates(n: number, p: number, sets: number, seed: number, limits: 'cross-validated' | 'theory') {
-	const t2: number[] = [];
-	const q: number[] = [];
-	const st: number[] = [];
-	for (let s = 0; s < sets; s++) {
-		const law = makeLaw(p, seed + 7919 * s);
-		const model = fitBaseline(rowsOf(draw(law, n), p), { featureNames: names(p), components: 3, alpha: ALPHA, limits });
-		const r = scoreBatch(model, draw(law, NEW));
-		let a = 0;
-		let b = 0;
-		let c = 0;
-		for (let i = 0; i < NEW; i++) {
-			if (r.t2[i] > model.limits.t2) a++;
-			if (r.q[i] > model.limits.q) b++;
-			if (beyondLimit(model, r.t2[i], r.q[i], r.phi[i])) c++;
-		}
-		t2.push(a / NEW);
-		q.push(b / NEW);
-		st.push(c / NEW);
-	}
-	const out = { t2: meanSd(t2), q: meanSd(q), state: meanSd(st) };
+	const out = cell(n, p, sets, seed, limits, NEW);
 	const pct = (x: { mean: number; sd: number }) => `${(100 * x.mean).toFixed(2)} % (sd over sets ${(100 * x.sd).toFixed(2)})`;
 	console.log(`n = ${n}, p = ${p}, ${sets} sets, ${limits}: T² ${pct(out.t2)}, Q ${pct(out.q)}, state ${pct(out.state)}`);
 	return out;
