@@ -8,7 +8,7 @@
  * 400 new in-control wafers scored against each; the table gives the share beyond the T² limit, the
  * Q limit and the wafer's combined state, as the mean over sets and (in brackets) the sd over sets.
  * Then the power at n = 30, p = 1,000: three adjacent channels raised by 10 noise-σ (a molecular band
- * appearing), share of wafers beyond Q and beyond the combined state. `… 50 cross-validated power`
+ * appearing), share of wafers beyond Q and beyond the combined state. `… 30 cross-validated power`
  * prints only the power, at n = 30 and 100, with the band on random or on background channels.
  */
 import { fitBaseline, scoreBatch, type BaselineModel } from '../src/lib/monitoring/index.ts';
