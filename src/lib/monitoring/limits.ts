@@ -213,59 +213,6 @@ export function phiLimit(params: PhiParameters, alpha: number): number {
 	return params.g * chiSquareUpper(alpha, params.h);
 }
 
-/** A scaled χ² law g · χ²(h), fitted to a sample by its first two moments. */
-export interface ScaledChiSquare {
-	g: number;
-	h: number;
-	/** Sample mean and variance (n − 1) the law was matched to. */
-	mean: number;
-	variance: number;
-}
-
-/**
- * Fit g · χ²(h) to positive values by matching their mean m and variance v.
- *
- * Formula: g = v / (2m), h = 2m² / v (E[gχ²_h] = gh, Var = 2g²h). Source: Box (1954) Ann. Math.
- * Statist. 25:290; used for the SPE limit from reference-set values by Nomikos & MacGregor (1995)
- * "Multivariate SPC charts for monitoring batch processes", Technometrics 37:41, §4.2.
- *
- * @param values the sample (at least 3 values, all finite and ≥ 0, not all equal)
- * @returns g, h and the moments
- * @throws MonitoringInputError on fewer than 3 values, a negative or non-finite value, or no spread
- * @example momentMatchedChiSquare([1, 2, 3, 4, 5]) // → { g: 0.4166…, h: 7.2, mean: 3, variance: 2.5 }
- */
-export function momentMatchedChiSquare(values: ArrayLike<number>): ScaledChiSquare {
-	const n = values.length;
-	if (n < 3) throw new MonitoringInputError(`a moment-matched χ² needs at least 3 values, got ${n}`);
-	let s = 0;
-	for (let i = 0; i < n; i++) {
-		const v = values[i];
-		if (!(Number.isFinite(v) && v >= 0)) throw new MonitoringInputError(`value ${i} is ${v}: must be finite and ≥ 0`);
-		s += v;
-	}
-	const mean = s / n;
-	let ss = 0;
-	for (let i = 0; i < n; i++) ss += (values[i] - mean) ** 2;
-	const variance = ss / (n - 1);
-	if (!(variance > 0 && mean > 0)) throw new MonitoringInputError('the values do not vary: no χ² law can be matched');
-	return { g: variance / (2 * mean), h: (2 * mean * mean) / variance, mean, variance };
-}
-
-/**
- * Upper α quantile of a scaled χ² law.
- *
- * Formula: g · χ²_α(h). Source: Box (1954); Nomikos & MacGregor (1995) Technometrics 37:41.
- *
- * @param law from {@link momentMatchedChiSquare}
- * @param alpha upper-tail probability, 0 < α < 1
- * @returns the quantile
- * @throws RangeError on a bad α
- * @example scaledChiSquareUpper({ g: 1, h: 4, mean: 4, variance: 8 }, 0.05) // → 9.4877…
- */
-export function scaledChiSquareUpper(law: Pick<ScaledChiSquare, 'g' | 'h'>, alpha: number): number {
-	return law.g * chiSquareUpper(alpha, law.h);
-}
-
 /** A cube-root normal law fitted to out-of-sample values, for a prediction limit. */
 export interface CubeRootLaw {
 	/** Mean and sd (n − 1) of the values' cube roots. */
