@@ -111,9 +111,12 @@ export async function runEngineBench(): Promise<BenchFigure[]> {
 	const fitData = latentData(1, n, p, 12);
 	const fitRows = rowsOf(fitData, n, p);
 	const featureNames = Array.from({ length: p }, (_, j) => `oes_${(200 + (800 * j) / p).toFixed(2)}`);
-	fitBaseline(fitRows, { featureNames, components: k, route: 'gram' }); // warm-up (JIT)
-	const gramMs = bestMs(() => fitBaseline(fitRows, { featureNames, components: k, route: 'gram' }), 3);
-	const svdMs = bestMs(() => fitBaseline(fitRows, { featureNames, components: k, route: 'svd' }), 2);
+	// The decomposition and limit arithmetic alone (what numpy is compared with): theory limits. The
+	// default fit adds the cross-validation behind the limits (20 refits here), timed once below.
+	fitBaseline(fitRows, { featureNames, components: k, route: 'gram', limits: 'theory' }); // warm-up (JIT)
+	const gramMs = bestMs(() => fitBaseline(fitRows, { featureNames, components: k, route: 'gram', limits: 'theory' }), 3);
+	const svdMs = bestMs(() => fitBaseline(fitRows, { featureNames, components: k, route: 'svd', limits: 'theory' }), 2);
+	const cvMs = bestMs(() => fitBaseline(fitRows, { featureNames, components: k, route: 'gram' }), 1);
 
 	const p2 = 512;
 	const m = 20_000;
@@ -132,6 +135,7 @@ export async function runEngineBench(): Promise<BenchFigure[]> {
 	const figures: BenchFigure[] = [
 		{ name: 'fit 200 × 2,048, k = 10, Gram route (default)', value: gramMs, unit: 'ms', target: '< 1000 ms', numpy: np?.fitGramMs },
 		{ name: 'fit 200 × 2,048, k = 10, SVD route (QR + SVD)', value: svdMs, unit: 'ms', target: '< 1000 ms', numpy: np?.fitSvdMs },
+		{ name: 'fit 200 × 2,048, k = 10, with cross-validated limits (20 refits)', value: cvMs, unit: 'ms', target: '< 15000 ms' },
 		{ name: 'scoreBatch, 512 features, k = 10, one core (T², Q, φ)', value: (m / batchMs) * 1000, unit: 'wafers/s', target: '≥ 50,000 wafers/s', numpy: np?.scoreWafersPerSecond },
 		{ name: 'scoreWafer one by one, 512 features, k = 10 (full detail)', value: (m / singleMs) * 1000, unit: 'wafers/s', target: '≥ 50,000 wafers/s', numpy: np?.scoreWafersPerSecond }
 	];

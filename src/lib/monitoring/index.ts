@@ -4,6 +4,7 @@ export { fUpper, chiSquareUpper, normalUpper, tTwoSided } from './quantiles';
 export {
 	assertFiniteRow,
 	fitScaling,
+	featureResolution,
 	scaleRow,
 	DEFAULT_SCALE_FLOOR,
 	type Row,
@@ -23,14 +24,24 @@ export {
 	residualMoments,
 	phiParameters,
 	phiLimit,
+	cubeRootLaw,
+	cubeRootPredictionLimit,
+	type CubeRootLaw,
 	type QLimitMethod,
 	type ResidualMoments,
 	type PhiParameters
 } from './limits';
-export type { BaselineModel, ModelLimits } from './model';
-export { fitBaseline, type FitOptions } from './baseline';
-export { crossValidatedScores, type CrossValidatedScores } from './cross-validation';
-export { scoreWafer, scoreBatch, rowFromRecord, type WaferScore, type BatchScores } from './scoring';
+export type { BaselineModel, ModelLimits, LimitCalibration, CubeRootSummary } from './model';
+export { fitBaseline, fitBaselineDetailed, calibrateLimits, type FitOptions, type DetailedFit } from './baseline';
+export {
+	crossValidatedScores,
+	crossValidatedStatistics,
+	defaultFolds,
+	type CrossValidatedScores,
+	type CrossValidatedStatistics,
+	type CrossValidationSpec
+} from './cross-validation';
+export { scoreWafer, scoreBatch, rowFromRecord, stateRatio, beyondLimit, type WaferScore, type BatchScores } from './scoring';
 export {
 	contributions,
 	rankContributions,
@@ -137,3 +148,12 @@ export {
 	type ScoredPoint,
 	type Violation
 } from './alarm-rules';
+export {
+	phaseOne,
+	phaseOneT2Limit,
+	goldenSetWarnings,
+	advisedGoldenWafers,
+	type PhaseOneResult,
+	type PhaseOneWafer,
+	type GoldenSetFacts
+} from './phase-one';

@@ -1,5 +1,5 @@
 import { MonitoringInputError } from './errors';
-import { chiSquareUpper, fUpper, normalUpper } from './quantiles';
+import { chiSquareUpper, fUpper, normalUpper, tTwoSided } from './quantiles';
 
 /** Which approximation gives the Q (SPE) limit. */
 export type QLimitMethod = 'jackson-mudholkar' | 'box' | 'three-moment';
@@ -211,4 +211,68 @@ export function phiParameters(
  */
 export function phiLimit(params: PhiParameters, alpha: number): number {
 	return params.g * chiSquareUpper(alpha, params.h);
+}
+
+/** A cube-root normal law fitted to out-of-sample values, for a prediction limit. */
+export interface CubeRootLaw {
+	/** Mean and sd (n − 1) of the values' cube roots. */
+	mean: number;
+	sd: number;
+	/** Number of values. */
+	n: number;
+	/** Degrees of freedom of the Student t in the prediction limit: (n − 1)/2. */
+	nu: number;
+}
+
+/**
+ * Fit the cube-root law of positive out-of-sample statistics (T², Q, φ of cross-validated golden wafers).
+ *
+ * Formula: u_i = x_i^(1/3); mean ū and sd s_u (n − 1) of the u_i. The cube root makes a χ²-like
+ * (quadratic-form) statistic nearly normal for any degrees of freedom (Wilson & Hilferty 1931, "The
+ * distribution of chi-square", PNAS 17:684), which a moment-matched g·χ²(h) also assumes but whose
+ * tail is then read off a normal law with a prediction bound. ν = (n − 1)/2: the out-of-sample values
+ * share most of their training wafers and are not independent; halving the degrees of freedom was
+ * chosen by simulation (bench/calibration.ts) and is our calibration, not a published constant.
+ *
+ * @param values at least 3 finite values ≥ 0, not all equal
+ * @returns the law
+ * @throws MonitoringInputError on fewer than 3 values, a negative or non-finite value, or no spread
+ * @example cubeRootLaw([1, 8, 27]).mean // → 2
+ */
+export function cubeRootLaw(values: ArrayLike<number>): CubeRootLaw {
+	const n = values.length;
+	if (n < 3) throw new MonitoringInputError(`a prediction limit needs at least 3 values, got ${n}`);
+	let s = 0;
+	for (let i = 0; i < n; i++) {
+		const v = values[i];
+		if (!(Number.isFinite(v) && v >= 0)) throw new MonitoringInputError(`value ${i} is ${v}: must be finite and ≥ 0`);
+		s += Math.cbrt(v);
+	}
+	const mean = s / n;
+	let ss = 0;
+	for (let i = 0; i < n; i++) ss += (Math.cbrt(values[i]) - mean) ** 2;
+	const sd = Math.sqrt(ss / (n - 1));
+	if (!(sd > 0)) throw new MonitoringInputError('the out-of-sample statistics do not vary: no limit can be fitted');
+	return { mean, sd, n, nu: (n - 1) / 2 };
+}
+
+/**
+ * Upper prediction limit for a new wafer's statistic from its cube-root law.
+ *
+ * Formula: L_α = (ū + t_α(ν) · s_u · √(1 + 2/n))³, t_α(ν) the upper-α Student t quantile: the
+ * normal-theory prediction bound for one new observation (Hahn & Meeker 1991, "Statistical Intervals",
+ * §4.4, there with ν = n − 1 and √(1 + 1/n)), on the Wilson–Hilferty scale; ν and the factor 2/n allow
+ * for the dependence of cross-validated values (see {@link cubeRootLaw}).
+ *
+ * @param law from {@link cubeRootLaw}
+ * @param alpha upper-tail probability, 0 < α < 0.5
+ * @returns the limit
+ * @throws RangeError on a bad α
+ * @example cubeRootPredictionLimit({ mean: 2, sd: 0.1, n: 21, nu: 10 }, 0.01) // → 11.997… (scipy: (2 + t.ppf(0.99, 10) · 0.1 · √(1 + 2/21))³)
+ */
+export function cubeRootPredictionLimit(law: CubeRootLaw, alpha: number): number {
+	if (!(alpha > 0 && alpha < 0.5)) throw new RangeError(`α must lie in (0, 0.5), got ${alpha}`);
+	const t = tTwoSided(2 * alpha, law.nu);
+	const u = law.mean + t * law.sd * Math.sqrt(1 + 2 / law.n);
+	return u > 0 ? u * u * u : 0;
 }

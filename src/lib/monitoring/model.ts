@@ -10,6 +10,34 @@ export interface ModelLimits {
 	t2Warning: number;
 	qWarning: number;
 	phiWarning: number;
+	/**
+	 * T² and Q limits at α/2 (Bonferroni) that decide the wafer's combined state, so that an in-control
+	 * wafer's state is beyond limit with probability ≤ α. Absent on models stored before them (their
+	 * state is beyond limit when any of T², Q, φ exceeds its α limit, as it always was).
+	 */
+	t2State?: number;
+	qState?: number;
+}
+
+/** The cube-root law of one cross-validated statistic (see cubeRootLaw in limits.ts). */
+export interface CubeRootSummary {
+	mean: number;
+	sd: number;
+	n: number;
+	nu: number;
+}
+
+/** How a cross-validated model's limits were calibrated. */
+export interface LimitCalibration {
+	folds: number;
+	/**
+	 * T²: mean of the cross-validated T², the mean of the F law of a new wafer
+	 * (k(n−1)(n+1)/(n(n−k−2))), and the factor min(1, their ratio) applied to the F limits.
+	 */
+	t2: { cvMean: number; theoryMean: number; factor: number };
+	/** Q: its cube-root law, and (n > p) the factor scaling the residual-eigenvalue law to the out-of-sample mean. */
+	q: CubeRootSummary & { shapeScale: number | null };
+	phi: CubeRootSummary;
 }
 
 /**
@@ -53,4 +81,10 @@ export interface BaselineModel {
 	residual: ResidualMoments;
 	phi: PhiParameters;
 	limits: ModelLimits;
+	/** `cross-validated` or `theory`; absent on models stored before (theory limits, old state rule). */
+	limitCalibration?: 'cross-validated' | 'theory';
+	/** In words: how each limit was set, with sources. Absent on models stored before. */
+	limitMethod?: string;
+	/** The laws matched to the cross-validated golden statistics (cross-validated models only). */
+	crossValidation?: LimitCalibration;
 }

@@ -8,15 +8,50 @@ export type Row = ArrayLike<number>;
 
 /**
  * The floor below which a golden standard deviation counts as (near) zero:
- * floor_j = max(relative · |mean_j|, absolute), in the feature's own units.
+ * floor_j = max(relative · |mean_j|, absolute, Δ_j when `resolution`), in the feature's own units,
+ * Δ_j the feature's resolution ({@link featureResolution}).
  */
 export interface ScaleFloor {
 	relative: number;
 	absolute: number;
+	/**
+	 * Floor at the feature's resolution too, so that one quantisation step of a channel that never
+	 * moved in the golden set counts as one standard deviation, not 10⁴–10⁸ of them. Absent (false) on
+	 * models stored before it.
+	 */
+	resolution?: boolean;
 }
 
-/** Defaults: 1e-6 of the level (a setpoint echoed back, not a measurement) or 1e-9 absolute. */
-export const DEFAULT_SCALE_FLOOR: ScaleFloor = { relative: 1e-6, absolute: 1e-9 };
+/** Defaults: 1e-6 of the level, 1e-9 absolute, and the feature's resolution. */
+export const DEFAULT_SCALE_FLOOR: ScaleFloor = { relative: 1e-6, absolute: 1e-9, resolution: true };
+
+/**
+ * The resolution of a feature seen in its golden values: the smallest non-zero difference between
+ * two of them (the quantisation step, or a multiple of it), or, when all values are equal, the step
+ * of the last decimal digit the value is written with (400 → 1, 12.25 → 0.01, 1.5e-7 → 1e-8).
+ *
+ * Formula: Δ = min_{x_i ≠ x_l} |x_i − x_l|; constant column: Δ = 10^−d, d the decimals of the
+ * shortest round-trip decimal form (ECMA-262 Number::toString). Source: quantisation step as the
+ * resolution of a reading, Widrow & Kollár (2008) "Quantization Noise", ch. 1 (common practice).
+ *
+ * @param values the golden values of one feature (finite)
+ * @returns Δ > 0
+ * @throws nothing
+ * @example featureResolution([400, 401, 400, 403]) // → 1
+ */
+export function featureResolution(values: ArrayLike<number>): number {
+	const sorted = Float64Array.from(values).sort();
+	let step = Infinity;
+	for (let i = 1; i < sorted.length; i++) {
+		const d = sorted[i] - sorted[i - 1];
+		if (d > 0 && d < step) step = d;
+	}
+	if (Number.isFinite(step)) return step;
+	const text = String(Math.abs(sorted[0] ?? 0));
+	const [mantissa, exp] = text.split('e');
+	const decimals = (mantissa.split('.')[1] ?? '').length - Number(exp ?? 0);
+	return Math.pow(10, -decimals);
+}
 
 /** A feature whose golden-set standard deviation was at or below its floor, and what was done. */
 export interface LowVarianceFeature {
@@ -26,6 +61,8 @@ export interface LowVarianceFeature {
 	sd: number;
 	/** The standard deviation used instead. */
 	floor: number;
+	/** The feature's resolution Δ ({@link featureResolution}); absent on models stored before it. */
+	resolution?: number;
 	treatment: 'scale-floored';
 }
 
@@ -81,7 +118,8 @@ export function assertFiniteRow(x: Row, featureNames: readonly string[], rowInde
  *
  * Formula: mean_j = Σ_i x_ij / n; sd_j = √(Σ_i (x_ij − mean_j)² / (n − 1)) (two-pass, for accuracy);
  * autoscale: s_j = max(sd_j, floor_j); Pareto: s_j = √max(sd_j, floor_j); none: s_j = 1. A feature
- * with sd_j ≤ floor_j is flagged (see {@link ScaleFloor}).
+ * with sd_j ≤ floor_j is flagged (see {@link ScaleFloor}; the floor includes the feature's resolution
+ * unless `floor.resolution` is false).
  * Source: centring and unit-variance scaling, Jackson (1991) "A User's Guide to Principal
  * Components", §3.3; Pareto scaling, van den Berg et al. (2006) BMC Genomics 7:142.
  *
@@ -122,13 +160,20 @@ export function fitScaling(
 	const sd = new Float64Array(p);
 	const scale = new Float64Array(p);
 	const lowVariance: LowVarianceFeature[] = [];
+	const column = new Float64Array(n);
 	for (let j = 0; j < p; j++) {
 		sd[j] = Math.sqrt(ss[j] / (n - 1));
-		const f = Math.max(floor.relative * Math.abs(mean[j]), floor.absolute);
+		let f = Math.max(floor.relative * Math.abs(mean[j]), floor.absolute);
+		let resolution: number | undefined;
+		if (floor.resolution) {
+			for (let i = 0; i < n; i++) column[i] = rows[i][j];
+			resolution = featureResolution(column);
+			f = Math.max(f, resolution);
+		}
 		let s = sd[j];
 		if (!(sd[j] > f)) {
 			s = f;
-			lowVariance.push({ feature: featureNames[j], index: j, sd: sd[j], floor: f, treatment: 'scale-floored' });
+			lowVariance.push({ feature: featureNames[j], index: j, sd: sd[j], floor: f, treatment: 'scale-floored', ...(resolution === undefined ? {} : { resolution }) });
 		}
 		scale[j] = method === 'autoscale' ? s : method === 'pareto' ? Math.sqrt(s) : 1;
 	}

@@ -25,7 +25,15 @@ export interface WaferScore {
 	t2Ratio: number;
 	qRatio: number;
 	phiRatio: number;
-	/** The largest of the three ratios decides the wafer's state. */
+	/**
+	 * The combined ratio that decides the wafer's state ({@link stateRatio}): max(T²/T²_{α/2},
+	 * Q/Q_{α/2}) on current models, the largest of the three ratios on models stored before.
+	 */
+	stateRatio: number;
+	/**
+	 * `alarm` when the combined ratio exceeds 1 (probability ≤ α in control); `warning` when any
+	 * statistic exceeds its own α limit or its warning limit without that; else `ok`.
+	 */
 	state: 'ok' | 'warning' | 'alarm';
 	/** Scores t = Pᵀ z (length k). */
 	scores: Float64Array;
@@ -176,8 +184,9 @@ export function scoreWafer(model: BaselineModel, x: Row): WaferScore {
 	const t2Ratio = t2 / limits.t2;
 	const qRatio = q / limits.q;
 	const phiRatio = phi / limits.phi;
-	const alarm = t2Ratio > 1 || qRatio > 1 || phiRatio > 1;
-	const warning = t2 > limits.t2Warning || q > limits.qWarning || phi > limits.phiWarning;
+	const combined = stateRatio(model, t2, q, phi);
+	const alarm = combined > 1;
+	const warning = t2Ratio > 1 || qRatio > 1 || phiRatio > 1 || t2 > limits.t2Warning || q > limits.qWarning || phi > limits.phiWarning;
 	return {
 		t2,
 		q,
@@ -191,6 +200,7 @@ export function scoreWafer(model: BaselineModel, x: Row): WaferScore {
 		t2Ratio,
 		qRatio,
 		phiRatio,
+		stateRatio: combined,
 		state: alarm ? 'alarm' : warning ? 'warning' : 'ok',
 		scores: t,
 		residuals: e,
@@ -246,4 +256,45 @@ export function scoreBatch(model: BaselineModel, rows: readonly Row[] | Float64A
 		out.phi[i] = q * qWeight + t2 * t2Weight;
 	}
 	return out;
+}
+
+/**
+ * The combined ratio deciding a wafer's state: above 1, the wafer is beyond limit.
+ *
+ * Formula: max(T² / T²_{α/2}, Q / Q_{α/2}) — each statistic at α/2, so by Bonferroni's inequality an
+ * in-control wafer is beyond limit with probability ≤ α (≈ α, since T² and Q live in orthogonal
+ * subspaces and are nearly independent). Models stored before the state limits existed keep their
+ * rule: max(T²/T²_α, Q/Q_α, φ/φ_α), whose in-control rate is up to 2–3α.
+ * Source: Bonferroni inequality, e.g. Johnson & Wichern (2007) "Applied Multivariate Statistical
+ * Analysis", §5.4; combined T²/Q monitoring, MacGregor & Kourti (1995) Control Eng. Practice 3:403.
+ *
+ * @param model the baseline
+ * @param t2 the wafer's T²
+ * @param q the wafer's Q
+ * @param phi the wafer's φ (used by older models only)
+ * @returns the combined ratio
+ * @throws nothing
+ * @example stateRatio(model, model.limits.t2State!, 0, 0) // → 1
+ */
+export function stateRatio(model: BaselineModel, t2: number, q: number, phi: number): number {
+	const L = model.limits;
+	if (L.t2State !== undefined && L.qState !== undefined) return Math.max(t2 / L.t2State, q / L.qState);
+	return Math.max(t2 / L.t2, q / L.q, phi / L.phi);
+}
+
+/**
+ * Whether a wafer's combined state is beyond limit ({@link stateRatio} > 1).
+ *
+ * Source: as {@link stateRatio}.
+ *
+ * @param model the baseline
+ * @param t2 T²
+ * @param q Q
+ * @param phi φ
+ * @returns true when beyond limit
+ * @throws nothing
+ * @example beyondLimit(model, 0, 0, 0) // → false
+ */
+export function beyondLimit(model: BaselineModel, t2: number, q: number, phi: number): boolean {
+	return stateRatio(model, t2, q, phi) > 1;
 }

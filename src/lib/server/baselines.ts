@@ -5,7 +5,9 @@
 import type { Knex } from 'knex';
 import { ratioMoments, type RatioMoments } from '../monitoring/drift.ts';
 import {
-	fitBaseline,
+	fitBaselineDetailed,
+	goldenSetWarnings,
+	phaseOne,
 	modelFromBlob,
 	modelToBlob,
 	scoreBatch,
@@ -124,6 +126,26 @@ export interface BaselineSummary {
 	 * ACF that widens the EWMA limits (consecutive wafers of the training window, or golden): the EWMA charts' reference.
 	 */
 	ewmaReference: EwmaReference | null;
+	/** How the limits were set, in words (the model's limitMethod); absent on older summaries. */
+	limitMethod?: string;
+	/**
+	 * Phase I screening of the golden wafers (phase-one.ts): in-sample T² against the Beta limit and
+	 * out-of-sample Q against the other wafers' limit, each at α/2; flagged wafers are proposed for
+	 * removal. Null when the set is too small to cross-validate; absent on older summaries.
+	 */
+	phaseOne?: PhaseOneSummary | null;
+	/** What the engineer should read before approving (phase-one.ts goldenSetWarnings); absent on older summaries. */
+	warnings?: string[];
+}
+
+/** The Phase I part of a draft's summary (a contract: the qualification campaigns read it). */
+export interface PhaseOneSummary {
+	alpha: number;
+	t2Limit: number;
+	qLimit: number;
+	wafers: { waferStepId: number; waferId: string; t2: number; q: number; flagged: boolean }[];
+	flagged: { waferStepId: number; waferId: string; reason: string }[];
+	expectedFalseFlags: number;
 }
 
 /** In-control level of one ratio series for its EWMA chart. */
@@ -312,8 +334,10 @@ export async function createDraftBaseline(req: DraftRequest, k: Knex = db()): Pr
 	const catalog = await getCatalog(req.recipeStepId, setVersion, k);
 	const featureNames = catalog.map((f) => f.name);
 	let model: BaselineModel;
+	let cvQ: Float64Array | null = null;
+	let folds = 0;
 	try {
-		model = fitBaseline(
+		const fit = fitBaselineDetailed(
 			wafers.map((w) => w.values),
 			{
 				featureNames,
@@ -323,11 +347,34 @@ export async function createDraftBaseline(req: DraftRequest, k: Knex = db()): Pr
 				scaling: req.scaling ?? 'autoscale'
 			}
 		);
+		model = fit.model;
+		cvQ = fit.crossValidation?.q ?? null;
+		folds = fit.crossValidation?.folds ?? 0;
 	} catch (e) {
 		throw new BaselineError(`The model could not be fitted: ${e instanceof Error ? e.message : String(e)}`);
 	}
 	const self = scoreBatch(model, wafers.map((w) => w.values));
 	const ev = Array.from(model.explainedVariance);
+	const screen = cvQ ? phaseOne(wafers.map((w) => w.values), model, cvQ, { folds }) : null;
+	const phase: PhaseOneSummary | null = screen && {
+		alpha: screen.alpha,
+		t2Limit: screen.t2Limit,
+		qLimit: screen.qLimit,
+		wafers: screen.wafers.map((r) => ({ waferStepId: wafers[r.index].id, waferId: wafers[r.index].waferId, t2: r.t2, q: r.q, flagged: r.flagged })),
+		flagged: screen.wafers.filter((r) => r.flagged).map((r) => ({ waferStepId: wafers[r.index].id, waferId: wafers[r.index].waferId, reason: r.reasons.join('; ') })),
+		expectedFalseFlags: screen.expectedFalseFlags
+	};
+	const warnings = goldenSetWarnings({
+		n: model.n,
+		k: model.k,
+		p: model.p,
+		lots: wafers.map((w) => w.lotId),
+		times: wafers.map((w) => w.processedAt),
+		limitCalibration: model.limitCalibration,
+		flagged: phase?.flagged.length,
+		expectedFalseFlags: phase?.expectedFalseFlags
+	});
+	if (!screen) warnings.push('Phase I screening was not possible (too few wafers to leave one out for this k): look at the golden wafers yourself.');
 	const summary: BaselineSummary = {
 		n: model.n,
 		k: model.k,
@@ -339,6 +386,9 @@ export async function createDraftBaseline(req: DraftRequest, k: Knex = db()): Pr
 		golden: wafers.map((w, i) => ({ id: w.id, waferId: w.waferId, t2: self.t2[i], q: self.q[i] })),
 		qMethod: model.qMethod,
 		route: model.route,
+		limitMethod: model.limitMethod,
+		phaseOne: phase,
+		warnings,
 		ewmaReference: await ewmaReference(
 			wafers,
 			model,

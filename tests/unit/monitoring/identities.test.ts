@@ -2,9 +2,11 @@ import { describe, expect, it } from 'vitest';
 import {
 	brokenStickComponents,
 	contributions,
+	cubeRootPredictionLimit,
 	fitBaseline,
 	qLimitBox,
 	qLimitJacksonMudholkar,
+	qLimitThreeMoment,
 	scoreBatch,
 	scoreWafer,
 	t2Limit,
@@ -148,9 +150,25 @@ describe('limit formulas', () => {
 		expect(fitBaseline(data, { featureNames: names(6) }).componentsRule).toBe('broken-stick');
 	});
 	it('a model records everything needed to recompute its limits', () => {
-		const m: BaselineModel = fitBaseline(latent(5, 40, 8, 2, 0.3), { featureNames: names(8) });
+		const m: BaselineModel = fitBaseline(latent(5, 40, 8, 2, 0.3), { featureNames: names(8), limits: 'theory' });
 		expect(m.limits.t2).toBe(t2Limit(m.k, m.n, m.alpha));
 		expect(m.limits.q).toBe(qLimitJacksonMudholkar(m.eigenvalues.subarray(m.k), m.alpha));
+		expect(m.limits.t2State).toBe(t2Limit(m.k, m.n, m.alpha / 2));
 		expect(m.explainedVariance.reduce((a, b) => a + b, 0)).toBeCloseTo(1, 12);
+		expect(m.limitCalibration).toBe('theory');
+	});
+	it('a cross-validated model records the laws its limits come from', () => {
+		const m: BaselineModel = fitBaseline(latent(5, 30, 8, 2, 0.3), { featureNames: names(8) });
+		const cv = m.crossValidation!;
+		expect(m.limitCalibration).toBe('cross-validated');
+		expect(cv.folds).toBe(30); // leave-one-out up to 40 wafers
+		// n > p: the wider of the cube-root limit and the scaled three-moment law of the residual eigenvalues.
+		const tail = m.eigenvalues.subarray(m.k);
+		const qAt = (a: number) => Math.max(cubeRootPredictionLimit(cv.q, a), cv.q.shapeScale! * qLimitThreeMoment(tail, a));
+		expect(m.limits.q).toBe(qAt(m.alpha));
+		expect(m.limits.qState).toBe(qAt(m.alpha / 2));
+		expect(m.limits.t2).toBeCloseTo(cv.t2.factor * t2Limit(m.k, m.n, m.alpha), 12);
+		expect(cv.t2.factor).toBeLessThanOrEqual(1);
+		expect(m.limitMethod).toMatch(/leave-one-out/);
 	});
 });

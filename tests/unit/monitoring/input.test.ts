@@ -71,18 +71,28 @@ describe('bad input is refused with the feature and row named (the engine never 
 describe('near-zero golden variance', () => {
 	const flat = rows.map((r) => [...r.slice(0, 4), 750]);
 	const m = fitBaseline(flat, { featureNames, components: 2 });
-	it('floors the scale, flags the feature and records the treatment', () => {
+	// 750 written without decimals: its resolution is 1 count, so the scale is floored at 1 (not at
+	// 750e-6, where one count would have added 1.8e6 to Q).
+	it('floors the scale at the feature\'s resolution, flags the feature and records the treatment', () => {
 		expect(m.lowVarianceFeatures).toEqual([
-			{ feature: 'oes_777.4', index: 4, sd: 0, floor: 750 * 1e-6, treatment: 'scale-floored' }
+			{ feature: 'oes_777.4', index: 4, sd: 0, floor: 1, treatment: 'scale-floored', resolution: 1 }
 		]);
-		expect(m.scale[4]).toBe(750e-6);
-		expect(m.scaleFloor).toEqual({ relative: 1e-6, absolute: 1e-9 });
+		expect(m.scale[4]).toBe(1);
+		expect(m.scaleFloor).toEqual({ relative: 1e-6, absolute: 1e-9, resolution: true });
 		const s = scoreWafer(m, [...flat[0].slice(0, 4), 750]);
 		expect(Number.isFinite(s.t2) && Number.isFinite(s.q)).toBe(true);
 	});
-	it('a wafer that moves the never-varying feature is loud in Q', () => {
-		const s = scoreWafer(m, [...flat[0].slice(0, 4), 750.01]);
-		expect(s.qRatio).toBeGreaterThan(1);
+	it('one quantisation step adds at most 1 to Q; a move of 30 steps is loud in Q', () => {
+		const base = scoreWafer(m, [...flat[0].slice(0, 4), 750]);
+		const step = scoreWafer(m, [...flat[0].slice(0, 4), 751]);
+		expect(step.q - base.q).toBeLessThanOrEqual(1 + 1e-9);
+		expect(step.q - base.q).toBeGreaterThan(0);
+		expect(scoreWafer(m, [...flat[0].slice(0, 4), 780]).qRatio).toBeGreaterThan(1);
+	});
+	it('without the resolution floor (older models) one 0.01 step is enormous: the reason for the floor', () => {
+		const old = fitBaseline(flat, { featureNames, components: 2, scaleFloor: { resolution: false } });
+		expect(old.scale[4]).toBe(750e-6);
+		expect(scoreWafer(old, [...flat[0].slice(0, 4), 750.01]).q).toBeGreaterThan(100);
 	});
 	it('keeps the recorded treatment through serialization', () => {
 		expect(deserializeModel(serializeModel(m)).lowVarianceFeatures).toEqual(m.lowVarianceFeatures);
