@@ -66,6 +66,19 @@ const bearer: Handle = async ({ event, resolve }) => {
 	return resolve(event);
 };
 
+/**
+ * `POST /page?/default`: SvelteKit reads `?/default` as a named action called "default" and answers a
+ * page with only a default action with a 500. It is the client's mistake: 400 with the reason.
+ */
+const namedDefault: Handle = async ({ event, resolve }) => {
+	if (event.request.method === 'POST' && event.url.searchParams.has('/default'))
+		return new Response(JSON.stringify({ error: '`?/default` names no action: post the form to the page itself (no `?/…`), or to `?/<action>` for a named one.' }), {
+			status: 400,
+			headers: { 'content-type': 'application/json' }
+		});
+	return resolve(event);
+};
+
 /** Enforce ROUTE_POLICY on every request that matched a route. */
 const authorize: Handle = async ({ event, resolve }) => {
 	const routeId = event.route.id;
@@ -112,4 +125,4 @@ const freshness: Handle = async ({ event, resolve }) => {
 	}
 };
 
-export const handle = sequence(headers, session, bearer, authorize, freshness);
+export const handle = sequence(headers, namedDefault, session, bearer, authorize, freshness);

@@ -1,0 +1,173 @@
+/**
+ * Hardening figures (issue 13), printed, not asserted: `node --import tsx bench/hardening.ts [comma] [lock] [stall]`.
+ *
+ * - comma: the 2 MB "rejection amplification" file (a valid 26-column header, then 77,000 lines of
+ *   commas) ingested into a fresh database: time, rejection rows stored, database growth; then the same
+ *   bytes again (a refused file's repeat).
+ * - lock: a large file (LOCKSTEP_LOCK_ROWS rows, default 40,000, × 250 features) ingested by a child
+ *   process while this process writes a row every 100 ms on its own connection with SQLite's
+ *   busy_timeout of 5 s: the longest wait for the write lock and the writes that failed.
+ * - stall: the bad-input corpus (tests/fixtures/bad-input plus the generated large members and the comma
+ *   file) ingested one after another in this process while perf_hooks' monitorEventLoopDelay samples
+ *   the event loop: the longest stall.
+ */
+import fs from 'node:fs';
+import os from 'node:os';
+import path from 'node:path';
+import { spawn } from 'node:child_process';
+import { monitorEventLoopDelay } from 'node:perf_hooks';
+import Database from 'better-sqlite3';
+import { migrateLatest, openDb, setDb } from '../src/lib/server/db.ts';
+import { ingestFile } from '../src/lib/server/ingest/index.ts';
+import { deepJson, deepJsonValue, overlongLine, tenThousandColumns } from '../tests/fixtures/bad-input/generate.ts';
+
+const FEATURES_26 = Array.from({ length: 20 }, (_, j) => `oes_${(300 + j * 25).toFixed(1)}`);
+const HEADER_26 = ['wafer_id', 'lot_id', 'chamber_id', 'recipe', 'step', 'processed_at', ...FEATURES_26];
+
+/** The attack file of issue 13 item 1: a valid header of 26 columns, then 77,000 lines of 25 commas. */
+export function commaFile(lines = 77_000): Buffer {
+	return Buffer.from(`${HEADER_26.join(',')}\n${`${','.repeat(HEADER_26.length - 1)}\n`.repeat(lines)}`);
+}
+
+function dbBytes(file: string): number {
+	return ['', '-wal', '-shm'].reduce((s, ext) => s + (fs.existsSync(file + ext) ? fs.statSync(file + ext).size : 0), 0);
+}
+
+async function freshDb(dir: string) {
+	const file = path.join(dir, 'lockstep.sqlite');
+	const k = openDb({ client: 'better-sqlite3', filename: file, connectionString: null });
+	await migrateLatest(k);
+	setDb(k);
+	const [a] = await k('areas').insert({ code: 'B', name: 'B' }).returning('id');
+	const [t] = await k('tools').insert({ code: 'B-T', name: 'B', area_id: a.id ?? a }).returning('id');
+	await k('chambers').insert({ code: 'PM1', name: 'PM1', tool_id: t.id ?? t, created_at: Date.now() });
+	await k.raw('PRAGMA wal_checkpoint(TRUNCATE)');
+	return { k, file };
+}
+
+async function comma() {
+	const dir = fs.mkdtempSync(path.join(os.tmpdir(), 'lockstep-hard-'));
+	const { k, file } = await freshDb(dir);
+	const csv = path.join(dir, 'commas.csv');
+	fs.writeFileSync(csv, commaFile());
+	const before = dbBytes(file);
+	const h = monitorEventLoopDelay({ resolution: 10 });
+	h.enable();
+	let t0 = performance.now();
+	const r = await ingestFile(csv, { source: 'api', k });
+	const first = performance.now() - t0;
+	h.disable();
+	const rej = Number((await k('ingest_rejections').count({ n: '*' }).first())?.n);
+	const ws = Number((await k('wafer_steps').count({ n: '*' }).first())?.n);
+	await k.raw('PRAGMA wal_checkpoint(TRUNCATE)');
+	const growth = dbBytes(file) - before;
+	t0 = performance.now();
+	const again = await ingestFile(csv, { source: 'api', k });
+	const second = performance.now() - t0;
+	console.log(`comma file (${(fs.statSync(csv).size / 1e6).toFixed(2)} MB): status ${r.status}, ${first.toFixed(0)} ms, ${rej} ingest_rejections rows, ${ws} wafer-steps, database growth ${(growth / 1e6).toFixed(2)} MB, longest event-loop stall ${(h.max / 1e6).toFixed(0)} ms`);
+	console.log(`  same bytes again: status ${again.status}, ${second.toFixed(0)} ms; ${r.summary.slice(0, 200)}`);
+	await k.destroy();
+	setDb(null);
+	fs.rmSync(dir, { recursive: true, force: true });
+}
+
+function bigFile(p: string, rows: number, features: number) {
+	const names = Array.from({ length: features - 2 }, (_, j) => `oes_${(200 + j * 2.5).toFixed(1)}`);
+	const out = fs.openSync(p, 'w');
+	fs.writeSync(out, ['wafer_id', 'lot_id', 'chamber_id', 'recipe', 'step', 'processed_at', ...names, 'pressure_mtorr', 'rf_reflected_w'].join(',') + '\n');
+	const t0 = Date.UTC(2026, 10, 1);
+	let buf: string[] = [];
+	for (let i = 0; i < rows; i++) {
+		const v = names.map((_, j) => (1000 + j + ((i * 7 + j * 13) % 97) / 10).toFixed(3));
+		buf.push([`BW${i}`, `BL${i >> 5}`, 'PM1', 'BIG-ETCH', i % 2 ? 'main' : 'over', new Date(t0 + i * 60_000).toISOString(), ...v, '15.07', '2.31'].join(','));
+		if (buf.length === 1000) {
+			fs.writeSync(out, buf.join('\n') + '\n');
+			buf = [];
+		}
+	}
+	if (buf.length) fs.writeSync(out, buf.join('\n') + '\n');
+	fs.closeSync(out);
+}
+
+async function lock() {
+	const rows = Number(process.env.LOCKSTEP_LOCK_ROWS ?? 40_000);
+	const dir = fs.mkdtempSync(path.join(os.tmpdir(), 'lockstep-lock-'));
+	const { k, file } = await freshDb(dir);
+	await k.destroy();
+	setDb(null);
+	const big = path.join(dir, 'big.csv');
+	bigFile(big, rows, 250);
+	const size = fs.statSync(big).size;
+	const conn = new Database(file);
+	conn.pragma('busy_timeout = 5000');
+	conn.exec('create table if not exists bench_probe (at integer)');
+	const child = spawn(process.execPath, ['--import', 'tsx', '-e', `
+		const { ingestFile } = await import(${JSON.stringify(path.resolve('src/lib/server/ingest/index.ts'))});
+		const { openDb } = await import(${JSON.stringify(path.resolve('src/lib/server/db.ts'))});
+		const k = openDb({ client: 'better-sqlite3', filename: ${JSON.stringify(file)}, connectionString: null });
+		const r = await ingestFile(${JSON.stringify(big)}, { source: 'inbox', k });
+		console.log(r.summary);
+		await k.destroy();`], { stdio: ['ignore', 'pipe', 'inherit'] });
+	let out = '';
+	child.stdout.on('data', (d) => (out += d));
+	const done = new Promise<number>((r) => child.on('exit', (c) => r(c ?? 1)));
+	let finished = false;
+	void done.then(() => (finished = true));
+	const t0 = performance.now();
+	let maxWait = 0;
+	let failed = 0;
+	let writes = 0;
+	while (!finished) {
+		await new Promise((r) => setTimeout(r, 100));
+		const s = performance.now();
+		try {
+			conn.prepare('insert into bench_probe (at) values (?)').run(Date.now());
+			writes++;
+		} catch {
+			failed++;
+		}
+		maxWait = Math.max(maxWait, performance.now() - s);
+	}
+	conn.close();
+	console.log(`large file (${rows} rows × 250 features, ${(size / 1e6).toFixed(0)} MB) ingested in ${((performance.now() - t0) / 1000).toFixed(1)} s by another process: ${writes} probe writes succeeded, ${failed} failed (busy_timeout 5 s), longest wait for the write lock ${maxWait.toFixed(0)} ms`);
+	console.log(`  ${out.trim()}`);
+	fs.rmSync(dir, { recursive: true, force: true });
+}
+
+async function stall() {
+	const dir = fs.mkdtempSync(path.join(os.tmpdir(), 'lockstep-stall-'));
+	const { k } = await freshDb(dir);
+	const fix = 'tests/fixtures/bad-input';
+	const files = fs.readdirSync(fix).filter((f) => /\.(csv|json)$/.test(f)).map((f) => path.join(fix, f));
+	const gen: Array<[string, Buffer]> = [
+		['ten-thousand-columns.csv', tenThousandColumns()],
+		['overlong-line.csv', overlongLine()],
+		['deep.json', deepJson()],
+		['deep-value.json', deepJsonValue()],
+		['commas.csv', commaFile()]
+	];
+	for (const [n, b] of gen) {
+		const p = path.join(dir, n);
+		fs.writeFileSync(p, b);
+		files.push(p);
+	}
+	const h = monitorEventLoopDelay({ resolution: 10 });
+	let worst = { ms: 0, file: '' };
+	for (const f of files) {
+		h.reset();
+		h.enable();
+		await ingestFile(f, { source: 'api', k });
+		h.disable();
+		if (h.max / 1e6 > worst.ms) worst = { ms: h.max / 1e6, file: path.basename(f) };
+	}
+	console.log(`bad-input corpus (${files.length} files): longest event-loop stall ${worst.ms.toFixed(0)} ms (${worst.file})`);
+	await k.destroy();
+	setDb(null);
+	fs.rmSync(dir, { recursive: true, force: true });
+}
+
+const which = process.argv.slice(2);
+const all = which.length === 0;
+if (all || which.includes('comma')) await comma();
+if (all || which.includes('stall')) await stall();
+if (all || which.includes('lock')) await lock();
