@@ -1,16 +1,22 @@
 /**
  * The one ingest pipeline behind the inbox job, the upload page and the tool-host API.
  *
- * Crash safety: a file's `ingest_files` row, its wafer-steps, their scores and its rejections are
- * written in ONE transaction, which commits only after the last row is read. A crash at any point
- * leaves nothing of the file in the database (SQLite rolls an uncommitted transaction back when it
- * reopens), so reprocessing the same input after a restart ends in the state an uninterrupted run
- * would have. Rows are still written and scored in batches as they stream in, so memory stays flat.
- * The transaction's length is bounded by CPU, not by a client's upload speed: HTTP bodies are spooled
- * to a temporary file first (see spool.ts).
+ * Two phases (writer.ts):
+ * 1. reading — the file is parsed and every row validated and packed, with read-only lookups; accepted
+ *    rows are staged in a temporary file (staging.ts). No write lock is held, so the web server's
+ *    writes (sign-ins, acknowledgements) are not held up however long the file is (issue 13). A file
+ *    refused while it is read leaves nothing but its refusal record.
+ * 2. publishing — the file's `ingest_files` row, its wafer-steps, their scores, the recipe steps and
+ *    chambers they need and its kept rejections are written in ONE transaction. A crash at any point
+ *    leaves nothing of the file in the database (SQLite rolls an uncommitted transaction back when it
+ *    reopens), so reprocessing the same input after a restart ends in the state an uninterrupted run
+ *    would have. The transaction only inserts and scores: parsing is done, and HTTP bodies were spooled
+ *    to a temporary file first (see spool.ts), so its length does not depend on a client's speed.
  *
  * Idempotency: a file whose SHA-256 matches an earlier file that was stored completely (no rejected
- * row) is a no-op; a wafer × recipe step already stored is counted as a duplicate and left unchanged.
+ * row) is a no-op; a wafer × recipe step already stored with the same content is counted as a
+ * duplicate and left unchanged (other content is refused as a conflict, writer.ts). A file refused for
+ * what its bytes say is remembered: the same bytes again get the same refusal without being read.
  */
 import fs from 'node:fs';
 import path from 'node:path';
@@ -24,7 +30,10 @@ import { getSetting } from '../settings.ts';
 import { readCsvFile } from './csv.ts';
 import { IngestFileError } from './errors.ts';
 import { feedJsonRows, parseJsonRows } from './json.ts';
-import { JSON_LIMIT_BYTES, MAX_LINE_BYTES } from './limits.ts';
+import { JSON_LIMIT_BYTES, MAX_LINE_BYTES, REPORT_REJECTION_CAP } from './limits.ts';
+import { CatalogChanged } from './catalog.ts';
+import { spoolDir } from './spool.ts';
+import { randomBytes } from 'node:crypto';
 import { summarise, type IngestReport, type IngestSource, type Rejection } from './report.ts';
 import { FileWriter, type WriterStats } from './writer.ts';
 
@@ -82,6 +91,7 @@ const emptyStats = (): WriterStats => ({
 	created: { recipes: [], recipeSteps: [], chambers: [] },
 	rejections: [],
 	rejectionsTotal: 0,
+	rejectionCounts: [],
 	duplicates: []
 });
 
@@ -99,6 +109,7 @@ function makeReport(base: Base, status: IngestReport['status'], stats: WriterSta
 		created: stats.created,
 		rejections: stats.rejections,
 		rejectionsTotal: stats.rejectionsTotal,
+		rejectionCounts: stats.rejectionCounts,
 		duplicates: stats.duplicates,
 		fileError: null,
 		finishedAt,
@@ -159,6 +170,8 @@ export async function ingestFile(filePath: string, opts: IngestOptions): Promise
 
 	const earlier = await findCompleteFile(k, info.sha256);
 	if (earlier !== null) return duplicateReport(base, earlier);
+	const refusedBefore = await findRefusal(k, info.sha256);
+	if (refusedBefore) return repeatedRefusal(base, refusedBefore);
 
 	const register =
 		opts.registerUnknownChambers ??
@@ -173,26 +186,18 @@ export async function ingestFile(filePath: string, opts: IngestOptions): Promise
 		throw e;
 	}
 
-	try {
-		return await k.transaction(async (trx) => {
-			// The INSERT comes first so this transaction holds SQLite's write lock from its start: two
-			// processes ingesting at once then queue instead of failing on a stale read snapshot.
-			const [row] = await trx('ingest_files')
-				.insert({
-					source: opts.source,
-					original_name: fileName,
-					sha256: info.sha256,
-					size_bytes: info.sizeBytes,
-					status: 'processing',
-					received_at: receivedAt,
-					submitted_by: opts.submittedBy ?? null,
-					api_token_id: opts.apiTokenId ?? null
-				})
-				.returning('id');
-			const fileId = Number(typeof row === 'object' ? row.id : row);
-			const again = await findCompleteFile(trx, info.sha256);
-			if (again !== null) throw new DuplicateFile(again);
-			const writer = new FileWriter(trx, { fileId, registerUnknownChambers: register, futureToleranceMs, receivedAt, unit: format === 'json' ? 'row' : 'line' });
+	// A step's catalog changed between reading and publishing (another file created it, an engineer
+	// accepted a new feature set): read the file again with the new catalog (rare; a few attempts).
+	for (let attempt = 1; ; attempt++) {
+		const writer = new FileWriter(k, {
+			stagingPath: path.join(spoolDir(), `${randomBytes(12).toString('hex')}.stage`),
+			registerUnknownChambers: register,
+			futureToleranceMs,
+			receivedAt,
+			unit: format === 'json' ? 'row' : 'line'
+		});
+		try {
+			// Phase 1: read, validate, stage — no write lock.
 			if (jsonRows) await feedJsonRows(jsonRows, writer);
 			else
 				await readCsvFile(filePath, writer, {
@@ -200,26 +205,50 @@ export async function ingestFile(filePath: string, opts: IngestOptions): Promise
 					maxLineBytes,
 					onChunk: (p) => progress({ phase: 'processing', bytesDone: p.bytesDone, bytesTotal: info.sizeBytes, rows: p.rows })
 				});
-			const stats = await writer.finish();
-			const report = makeReport(base, 'done', stats, { fileId });
-			await trx('ingest_files')
-				.where({ id: fileId })
-				.update({
-					status: 'done',
-					finished_at: report.finishedAt,
-					rows_total: stats.rows.total,
-					rows_accepted: stats.rows.accepted,
-					rows_rejected: stats.rows.rejected,
-					rows_duplicate: stats.rows.duplicate,
-					report_json: JSON.stringify(report)
-				});
-			progress({ phase: 'done', bytesDone: info.sizeBytes, bytesTotal: info.sizeBytes, rows: stats.rows.total });
-			return report;
-		});
-	} catch (e) {
-		if (e instanceof DuplicateFile) return duplicateReport(base, e.fileId);
-		if (e instanceof IngestFileError) return recordRefused(k, base, opts, e);
-		return recordFailed(k, base, opts, e);
+			await writer.endOfInput();
+			// Phase 2: publish in one transaction.
+			return await k.transaction(async (trx) => {
+				// The INSERT comes first so this transaction holds SQLite's write lock from its start: two
+				// processes publishing at once then queue instead of failing on a stale read snapshot.
+				const [row] = await trx('ingest_files')
+					.insert({
+						source: opts.source,
+						original_name: fileName,
+						sha256: info.sha256,
+						size_bytes: info.sizeBytes,
+						status: 'processing',
+						received_at: receivedAt,
+						submitted_by: opts.submittedBy ?? null,
+						api_token_id: opts.apiTokenId ?? null
+					})
+					.returning('id');
+				const fileId = Number(typeof row === 'object' ? row.id : row);
+				const again = await findCompleteFile(trx, info.sha256);
+				if (again !== null) throw new DuplicateFile(again);
+				const stats = await writer.publish(trx, fileId);
+				const report = makeReport(base, 'done', stats, { fileId });
+				await trx('ingest_files')
+					.where({ id: fileId })
+					.update({
+						status: 'done',
+						finished_at: report.finishedAt,
+						rows_total: stats.rows.total,
+						rows_accepted: stats.rows.accepted,
+						rows_rejected: stats.rows.rejected,
+						rows_duplicate: stats.rows.duplicate,
+						report_json: JSON.stringify(report)
+					});
+				progress({ phase: 'done', bytesDone: info.sizeBytes, bytesTotal: info.sizeBytes, rows: stats.rows.total });
+				return report;
+			});
+		} catch (e) {
+			if (e instanceof CatalogChanged && attempt < 3) continue;
+			if (e instanceof DuplicateFile) return duplicateReport(base, e.fileId);
+			if (e instanceof IngestFileError) return recordRefused(k, base, opts, e);
+			return recordFailed(k, base, opts, e);
+		} finally {
+			await writer.discard();
+		}
 	}
 }
 
@@ -227,6 +256,28 @@ export async function ingestFile(filePath: string, opts: IngestOptions): Promise
 async function findCompleteFile(k: Knex, sha256: string): Promise<number | null> {
 	const r = await k('ingest_files').where({ sha256, status: 'done', rows_rejected: 0 }).orderBy('id').first('id');
 	return r ? Number(r.id) : null;
+}
+
+/**
+ * An earlier refusal of the same bytes for what the bytes say (kind `input`: encoding, header, structure,
+ * rows all refused) — not an over-size refusal (the limit is a setting) nor an internal failure.
+ */
+async function findRefusal(k: Knex, sha256: string): Promise<{ fileId: number; report: IngestReport } | null> {
+	const r = await k('ingest_files').where({ sha256, status: 'rejected' }).orderBy('id', 'desc').first('id', 'report_json');
+	if (!r?.report_json) return null;
+	try {
+		const report = JSON.parse(r.report_json) as IngestReport;
+		return report.fileError && (report.fileError.kind ?? 'input') === 'input' ? { fileId: Number(r.id), report } : null;
+	} catch {
+		return null;
+	}
+}
+
+/** The same bytes were refused before: the same refusal, answered without reading them and not recorded again. */
+function repeatedRefusal(base: Base, earlier: { fileId: number; report: IngestReport }): IngestReport {
+	const e = earlier.report;
+	const stats = { ...emptyStats(), rejections: e.rejections ?? [], rejectionsTotal: e.rejectionsTotal ?? 0, rejectionCounts: e.rejectionCounts ?? [] };
+	return makeReport(base, 'rejected', stats, { fileError: e.fileError, duplicateOfFileId: earlier.fileId });
 }
 
 function duplicateReport(base: Base, fileId: number): IngestReport {
@@ -248,14 +299,22 @@ function fileRow(base: Base, opts: IngestOptions, status: 'rejected' | 'failed',
 	};
 }
 
-/** A refused file is recorded (status rejected) with its one located error; nothing else from it. */
+/**
+ * A refused file is recorded (status rejected) with its located error — and, when it was refused after
+ * rows that were all refused, those rows' kept rejections and counts; nothing else from it.
+ */
 export async function recordRefused(k: Knex = db(), base: Base, opts: IngestOptions, e: IngestFileError): Promise<IngestReport> {
 	const fileError: Rejection = { line: e.location.line ?? 0, column: e.location.column, value: e.location.value, reason: e.message, kind: e.kind };
-	const report = makeReport(base, 'rejected', emptyStats(), { fileError });
+	const d = e.detail;
+	const stats = d
+		? { ...emptyStats(), rows: { total: d.rowsRead, accepted: 0, rejected: d.rowsRead, duplicate: 0 }, rejections: d.rejections.slice(0, REPORT_REJECTION_CAP), rejectionsTotal: d.rejectionsTotal, rejectionCounts: d.rejectionCounts }
+		: emptyStats();
+	const report = makeReport(base, 'rejected', stats, { fileError });
 	return k.transaction(async (trx) => {
 		const [row] = await trx('ingest_files').insert(fileRow(base, opts, 'rejected', report)).returning('id');
 		const fileId = Number(typeof row === 'object' ? row.id : row);
-		await trx('ingest_rejections').insert({ ingest_file_id: fileId, line: fileError.line, column: fileError.column, value: fileError.value, reason: fileError.reason });
+		const rows = [fileError, ...(d?.rejections ?? [])].map((r) => ({ ingest_file_id: fileId, line: r.line, column: r.column, value: r.value, reason: r.reason }));
+		for (let i = 0; i < rows.length; i += 500) await trx('ingest_rejections').insert(rows.slice(i, i + 500));
 		const withId = { ...report, fileId };
 		await trx('ingest_files').where({ id: fileId }).update({ report_json: JSON.stringify(withId) });
 		return withId;
