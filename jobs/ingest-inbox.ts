@@ -19,7 +19,7 @@ import { pathToFileURL } from 'node:url';
 import type { Knex } from 'knex';
 import { config } from '../src/lib/server/config.ts';
 import { closeDb, db, migrateLatest } from '../src/lib/server/db.ts';
-import { ingestFile, type IngestProgress, type IngestReport } from '../src/lib/server/ingest/index.ts';
+import { ingestFile, recoverInterruptedIngests, sweepSpool, type IngestProgress, type IngestReport } from '../src/lib/server/ingest/index.ts';
 import { yieldToWebServer } from './priority.ts';
 
 export interface InboxOptions {
@@ -117,9 +117,14 @@ export async function runInbox(opts: InboxOptions = {}): Promise<InboxOutcome[]>
 	}
 	const out: InboxOutcome[] = [];
 	try {
+		// What a killed worker left: a file not yet flipped is undone (it is still in the inbox and is
+		// read again below), a flipped file's pending scoring is finished; orphan spool files go.
+		const recovered = await recoverInterruptedIngests(k, ['inbox']);
+		if (recovered.undone || recovered.scored) log(`inbox: recovered after an interruption: ${recovered.undone} unpublished file(s) undone, ${recovered.scored} file(s) scored`);
+		sweepSpool();
 		for (const name of candidates(dir, opts.settleMs ?? 5000)) {
 			const file = path.join(dir, name);
-			const report = await ingestFile(file, { source: 'inbox', originalName: name, onProgress: (p) => opts.onProgress?.(name, p) });
+			const report = await ingestFile(file, { source: 'inbox', originalName: name, k, onProgress: (p) => opts.onProgress?.(name, p) });
 			let written: unknown = report;
 			if (report.status === 'duplicate' && report.duplicateOfFileId !== null) {
 				// After a crash between commit and move this is the same file: keep the stored report beside it.

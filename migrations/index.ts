@@ -11,6 +11,7 @@ import * as rollupIndex from './20261201000300_rollup_covering_index.ts';
 import * as mail from './20261201020000_mail.ts';
 import * as featureSetProposals from './20261201030000_feature_set_proposals.ts';
 import * as rollupSeasoning from './20261201040000_rollup_seasoning.ts';
+import * as ingestStaging from './20261203040000_ingest_staging.ts';
 
 const migrations: Record<string, Knex.Migration> = {
 	'20261201000000_foundation.ts': foundation,
@@ -19,7 +20,8 @@ const migrations: Record<string, Knex.Migration> = {
 	'20261201000300_rollup_covering_index.ts': rollupIndex,
 	'20261201020000_mail.ts': mail,
 	'20261201030000_feature_set_proposals.ts': featureSetProposals,
-	'20261201040000_rollup_seasoning.ts': rollupSeasoning
+	'20261201040000_rollup_seasoning.ts': rollupSeasoning,
+	'20261203040000_ingest_staging.ts': ingestStaging
 };
 
 export const migrationSource: Knex.MigrationSource<string> = {

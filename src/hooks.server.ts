@@ -1,9 +1,10 @@
-import { error, type Handle } from '@sveltejs/kit';
+import { error, type Handle, type ServerInit } from '@sveltejs/kit';
 import { sequence } from '@sveltejs/kit/hooks';
 import { luciaFor } from '$lib/server/auth';
 import { decide } from '$lib/server/route-policy';
 import { securityHeaders } from '$lib/server/security-headers';
-import { closeDb } from '$lib/server/db';
+import { closeDb, db } from '$lib/server/db';
+import { recoverInterruptedIngests, sweepSpool } from '$lib/server/ingest';
 import { noteLocalWrite } from '$lib/server/answer-cache';
 import { bearerToken, verifyApiToken } from '$lib/server/api-tokens';
 import { THEME_COOKIE, themeFromCookie, withHtmlTheme } from '$lib/components/ui/theme';
@@ -12,6 +13,22 @@ import { THEME_COOKIE, themeFromCookie, withHtmlTheme } from '$lib/components/ui
 process.on('sveltekit:shutdown', () => {
 	void closeDb();
 });
+
+/**
+ * At start: finish what a killed server left of uploads and API ingests (an unflipped file is undone,
+ * a flipped one's pending scoring done; see ingest/pipeline.ts) and sweep orphan spool files.
+ */
+export const init: ServerInit = async () => {
+	try {
+		const r = await recoverInterruptedIngests(db(), ['upload', 'api']);
+		if (r.undone || r.scored) console.log(`ingest: recovered after an interruption: ${r.undone} unpublished upload(s) undone, ${r.scored} upload(s) scored`);
+		const swept = sweepSpool();
+		if (swept) console.log(`ingest: removed ${swept} orphan spool file(s) of stopped processes`);
+	} catch (e) {
+		// no database yet (before the first migration): nothing to recover
+		console.warn('ingest recovery skipped:', e instanceof Error ? e.message : e);
+	}
+};
 
 /** Resolve the session cookie to `locals.user`, refreshing or clearing the cookie as Lucia says. */
 const session: Handle = async ({ event, resolve }) => {

@@ -171,8 +171,15 @@ export class CatalogChanged extends Error {
 	}
 }
 
+/** What a file created, by id, so that an interrupted publish can be undone (pipeline.ts). */
+export interface CreatedIds {
+	recipeIds: number[];
+	recipeStepIds: number[];
+	chamberIds: number[];
+}
+
 /** Make the recipe step (and its recipe) a plan stands for, inside the publishing transaction. */
-export async function createPlannedStep(trx: Knex.Transaction, header: Header, plan: StepPlan, created: Created): Promise<void> {
+export async function createPlannedStep(trx: Knex.Transaction, header: Header, plan: StepPlan, created: Created, ids: CreatedIds): Promise<void> {
 	const want = plan.toCreate;
 	if (!want) return;
 	let recipe = await trx('recipes').where({ code: want.recipeCode }).first('id');
@@ -180,6 +187,7 @@ export async function createPlannedStep(trx: Knex.Transaction, header: Header, p
 		const [r] = await trx('recipes').insert({ code: want.recipeCode, name: want.recipeCode }).returning('id');
 		recipe = { id: id(r) };
 		created.recipes.push(want.recipeCode);
+		ids.recipeIds.push(recipe.id);
 	}
 	if (await trx('recipe_steps').where({ recipe_id: recipe.id, name: want.stepName }).first('id'))
 		throw new CatalogChanged(`${want.recipeCode} / ${want.stepName} was created meanwhile`);
@@ -187,15 +195,24 @@ export async function createPlannedStep(trx: Knex.Transaction, header: Header, p
 	const [s] = await trx('recipe_steps').insert({ recipe_id: recipe.id, name: want.stepName, position: count, feature_set_version: 1 }).returning('id');
 	plan.recipeStepId = id(s);
 	plan.toCreate = undefined;
+	ids.recipeStepIds.push(plan.recipeStepId);
 	await insertCatalog(trx, plan.recipeStepId, 1, header.features);
 	created.recipeSteps.push(`${want.recipeCode} / ${want.stepName}`);
 }
 
-/** An existing step's feature set must still be the one its plan was made for. */
-export async function checkPlanCurrent(trx: Knex.Transaction, plan: StepPlan): Promise<void> {
-	if (plan.toCreate) return;
-	const s = await trx('recipe_steps').where({ id: plan.recipeStepId }).first('feature_set_version');
-	if (!s || Number(s.feature_set_version) !== plan.featureSetVersion) throw new CatalogChanged(`recipe step #${plan.recipeStepId} has a new feature set`);
+/**
+ * Undo what an interrupted publish created, where nothing else came to use it: its recipe steps (with
+ * their catalogs), then recipes left without steps, then chambers that hold no wafer-step.
+ */
+export async function undoCreated(trx: Knex.Transaction, ids: CreatedIds): Promise<void> {
+	for (const stepId of ids.recipeStepIds) {
+		if (await trx('wafer_steps').where({ recipe_step_id: stepId }).first('id')) continue;
+		await trx('feature_set_proposals').where({ recipe_step_id: stepId }).delete();
+		await trx('features').where({ recipe_step_id: stepId }).delete();
+		await trx('recipe_steps').where({ id: stepId }).delete();
+	}
+	for (const recipeId of ids.recipeIds) if (!(await trx('recipe_steps').where({ recipe_id: recipeId }).first('id'))) await trx('recipes').where({ id: recipeId }).delete();
+	for (const chamberId of ids.chamberIds) if (!(await trx('wafer_steps').where({ chamber_id: chamberId }).first('id'))) await trx('chambers').where({ id: chamberId }).delete();
 }
 
 // ── Chambers ──────────────────────────────────────────────────────────────────

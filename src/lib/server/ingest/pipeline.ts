@@ -31,11 +31,11 @@ import { readCsvFile } from './csv.ts';
 import { IngestFileError } from './errors.ts';
 import { feedJsonRows, parseJsonRows } from './json.ts';
 import { JSON_LIMIT_BYTES, MAX_LINE_BYTES, REPORT_REJECTION_CAP } from './limits.ts';
-import { CatalogChanged } from './catalog.ts';
+import { CatalogChanged, undoCreated, type CreatedIds } from './catalog.ts';
 import { spoolDir } from './spool.ts';
 import { randomBytes } from 'node:crypto';
 import { summarise, type IngestReport, type IngestSource, type Rejection } from './report.ts';
-import { FileWriter, type WriterStats } from './writer.ts';
+import { FileWriter, removeStaged, scoreFile, type WriterStats } from './writer.ts';
 
 export interface IngestProgress {
 	phase: 'checking' | 'processing' | 'done';
@@ -206,8 +206,9 @@ export async function ingestFile(filePath: string, opts: IngestOptions): Promise
 					onChunk: (p) => progress({ phase: 'processing', bytesDone: p.bytesDone, bytesTotal: info.sizeBytes, rows: p.rows })
 				});
 			await writer.endOfInput();
-			// Phase 2: publish in one transaction.
-			return await k.transaction(async (trx) => {
+			// Phase 2: publish in short transactions. The file's row says `processing` until the flip, so an
+			// interrupted publish is undone when its process starts again (recoverInterruptedIngests).
+			const fileId = await k.transaction(async (trx) => {
 				// The INSERT comes first so this transaction holds SQLite's write lock from its start: two
 				// processes publishing at once then queue instead of failing on a stale read snapshot.
 				const [row] = await trx('ingest_files')
@@ -222,25 +223,46 @@ export async function ingestFile(filePath: string, opts: IngestOptions): Promise
 						api_token_id: opts.apiTokenId ?? null
 					})
 					.returning('id');
-				const fileId = Number(typeof row === 'object' ? row.id : row);
+				const id = Number(typeof row === 'object' ? row.id : row);
 				const again = await findCompleteFile(trx, info.sha256);
 				if (again !== null) throw new DuplicateFile(again);
-				const stats = await writer.publish(trx, fileId);
-				const report = makeReport(base, 'done', stats, { fileId });
-				await trx('ingest_files')
-					.where({ id: fileId })
-					.update({
-						status: 'done',
-						finished_at: report.finishedAt,
-						rows_total: stats.rows.total,
-						rows_accepted: stats.rows.accepted,
-						rows_rejected: stats.rows.rejected,
-						rows_duplicate: stats.rows.duplicate,
-						report_json: JSON.stringify(report)
-					});
-				progress({ phase: 'done', bytesDone: info.sizeBytes, bytesTotal: info.sizeBytes, rows: stats.rows.total });
-				return report;
+				await writer.prepare(trx);
+				await trx('ingest_files').where({ id }).update({ staging_json: JSON.stringify({ phase: 'staging', created: writer.createdIds }) });
+				return id;
 			});
+			try {
+				await writer.stageRows(k, fileId);
+				const published = await k.transaction(async (trx) => {
+					const stats = await writer.flip(trx, fileId);
+					const report = makeReport(base, 'done', stats, { fileId });
+					await trx('ingest_files')
+						.where({ id: fileId })
+						.update({
+							status: 'done',
+							finished_at: report.finishedAt,
+							rows_total: stats.rows.total,
+							rows_accepted: stats.rows.accepted,
+							rows_rejected: stats.rows.rejected,
+							rows_duplicate: stats.rows.duplicate,
+							report_json: JSON.stringify(report),
+							staging_json: JSON.stringify({ phase: 'scoring' })
+						});
+					return stats;
+				});
+				progress({ phase: 'processing', bytesDone: info.sizeBytes, bytesTotal: info.sizeBytes, rows: published.rows.total });
+				await removeStaged(k, fileId);
+				const scored = await scoreFile(k, fileId);
+				published.waferSteps = { scored: scored.scored, noBaseline: scored.noBaseline };
+				published.alarmsOpened = scored.alarmsOpened;
+				const report = makeReport(base, 'done', published, { fileId });
+				await k('ingest_files').where({ id: fileId }).update({ finished_at: report.finishedAt, report_json: JSON.stringify(report), staging_json: null });
+				progress({ phase: 'done', bytesDone: info.sizeBytes, bytesTotal: info.sizeBytes, rows: published.rows.total });
+				return report;
+			} catch (e) {
+				// Not published (or published but not scored: then it stays and is scored on recovery).
+				await undoUnpublished(k, fileId).catch(() => {});
+				throw e;
+			}
 		} catch (e) {
 			if (e instanceof CatalogChanged && attempt < 3) continue;
 			if (e instanceof DuplicateFile) return duplicateReport(base, e.fileId);
@@ -250,6 +272,54 @@ export async function ingestFile(filePath: string, opts: IngestOptions): Promise
 			await writer.discard();
 		}
 	}
+}
+
+/**
+ * Undo a publish that did not reach its flip: staged rows, what the file created, its row. A file past
+ * its flip is left alone (stored whole; only its scoring may be pending).
+ */
+async function undoUnpublished(k: Knex, fileId: number): Promise<void> {
+	await k.transaction(async (trx) => {
+		const f = await trx('ingest_files').where({ id: fileId }).first('status', 'staging_json');
+		if (!f || f.status !== 'processing') return;
+		const staging = f.staging_json ? (JSON.parse(f.staging_json) as { created?: CreatedIds }) : {};
+		await trx('ingest_staged_rows').where({ ingest_file_id: fileId }).delete();
+		await trx('ingest_rejections').where({ ingest_file_id: fileId }).delete();
+		await trx('ingest_files').where({ id: fileId }).delete();
+		if (staging.created) await undoCreated(trx, staging.created);
+	});
+}
+
+/**
+ * At the start of the process that owns them (the web server: uploads and API; the inbox job: the
+ * inbox), finish what an interrupted ingest left: a file not yet flipped is undone as if never sent (the
+ * inbox file is still there, an upload's client got no answer); a flipped file's pending scoring is done.
+ * @returns the files undone and the files whose scoring was finished
+ */
+export async function recoverInterruptedIngests(k: Knex, sources: IngestSource[]): Promise<{ undone: number; scored: number }> {
+	const out = { undone: 0, scored: 0 };
+	const files = await k('ingest_files').whereIn('source', sources).whereNotNull('staging_json').select('id', 'status');
+	for (const f of files) {
+		const id = Number(f.id);
+		if (f.status === 'processing') {
+			await undoUnpublished(k, id);
+			out.undone++;
+			continue;
+		}
+		await removeStaged(k, id);
+		const scored = await scoreFile(k, id);
+		const row = await k('ingest_files').where({ id }).first('report_json');
+		if (row?.report_json) {
+			const report = JSON.parse(row.report_json) as IngestReport;
+			report.waferSteps = { scored: report.waferSteps.scored + scored.scored, noBaseline: report.waferSteps.noBaseline + scored.noBaseline };
+			report.alarmsOpened = [...report.alarmsOpened, ...scored.alarmsOpened];
+			report.summary = summarise(report);
+			await k('ingest_files').where({ id }).update({ report_json: JSON.stringify(report) });
+		}
+		await k('ingest_files').where({ id }).update({ staging_json: null });
+		out.scored++;
+	}
+	return out;
 }
 
 /** The id of an earlier file with these bytes that was stored completely, or null. */

@@ -3,8 +3,11 @@
  *
  * 1. reading — validate each row and turn it into a packed vector, with read-only lookups, and stage
  *    the accepted ones in a temporary file (staging.ts). No write lock is held, however long the file.
- * 2. publishing — inside the file's one transaction: create the recipe steps and chambers the stored
- *    rows need, insert the staged rows in batches, score each batch, store the kept rejections.
+ * 2. publishing, in short transactions (pipeline.ts): `prepare` creates the recipe steps and chambers
+ *    the stored rows need; `stageRows` copies the staged rows into `ingest_staged_rows` a batch per
+ *    transaction, sorting out rows already stored (duplicate or conflict); `flip` moves them into
+ *    wafer_steps with one INSERT … SELECT and stores the kept rejections; `scoreFile` then scores the
+ *    file's new wafer-steps a batch per transaction.
  *
  * Rejections are bounded per file (issue 13): the first REJECTION_ROWS_KEPT in full, then counts per
  * column and reason; a file whose first REFUSE_AFTER_ROWS rows are all refused for what the bytes say
@@ -13,9 +16,9 @@
  * of a chamber or recipe step, a full batch, a yield to the event loop).
  */
 import type { Knex } from 'knex';
-import { scoreWaferSteps, type NewWaferStep } from '../scoring.ts';
+import { scoreWaferSteps, type ScoringResult } from '../scoring.ts';
 import { analyseHeader, type Header } from './columns.ts';
-import { checkPlanCurrent, createPlannedStep, resolveStepPlan, registerChamber, type Created, type StepPlan } from './catalog.ts';
+import { createPlannedStep, resolveStepPlan, registerChamber, type Created, type CreatedIds, type StepPlan } from './catalog.ts';
 import { clip, IngestFileError } from './errors.ts';
 import {
 	BATCH_ROWS,
@@ -32,7 +35,7 @@ import {
 import type { DuplicateRow, Rejection, RejectionCount } from './report.ts';
 import { StagingFile, type StagedRow } from './staging.ts';
 import { parseId, parseInstant, parseNumberCell, parseRfOn, parseSlot } from './values.ts';
-import { encodeValues } from '../feature-values.ts';
+import { decodeValues, encodeValues } from '../feature-values.ts';
 import { recordProposal } from './feature-sets.ts';
 
 export interface WriterOptions {
@@ -373,35 +376,96 @@ export class FileWriter {
 		await this.stage.remove();
 	}
 
-	/**
-	 * Phase 2, inside the file's transaction: create what the stored rows need (chambers, recipe steps),
-	 * insert the staged rows in batches and score them, store the kept rejections and the feature-set
-	 * proposals. Throws CatalogChanged when a step's feature set changed since the file was read.
-	 */
-	async publish(trx: Knex.Transaction, fileId: number): Promise<WriterStats> {
-		const chamberIds = new Map<number, number>();
+	private readonly chamberIds = new Map<number, number>();
+	readonly createdIds: CreatedIds = { recipeIds: [], recipeStepIds: [], chamberIds: [] };
+	private stagedRows = 0;
+
+	/** Publishing 1 (inside the transaction that records the file): create what the stored rows need. */
+	async prepare(trx: Knex.Transaction): Promise<void> {
 		for (const [code, placeholder] of this.chambers) {
 			if (placeholder === null || placeholder >= 0 || !this.usedPlaceholders.has(placeholder)) continue;
 			const existing = await trx('chambers').where({ code }).first('id');
-			if (existing) chamberIds.set(placeholder, Number(existing.id));
+			if (existing) this.chamberIds.set(placeholder, Number(existing.id));
 			else {
-				chamberIds.set(placeholder, await registerChamber(trx, code));
+				const id = await registerChamber(trx, code);
+				this.chamberIds.set(placeholder, id);
+				this.createdIds.chamberIds.push(id);
 				this.stats.created.chambers.push(code);
 			}
 		}
-		for (const key of this.usedPlans) {
-			const plan = this.plans.get(key)!;
-			await checkPlanCurrent(trx, plan);
-			await createPlannedStep(trx, this.header!, plan, this.stats.created);
-		}
+		for (const key of this.usedPlans) await createPlannedStep(trx, this.header!, this.plans.get(key)!, this.stats.created, this.createdIds);
+	}
+
+	/**
+	 * Publishing 2: copy the staged rows into `ingest_staged_rows`, one short transaction per batch. A
+	 * wafer × step already stored is sorted out here: the same content is a duplicate (a no-op), other
+	 * content a conflict refused with its differences (issue 13) — the stored row is never changed.
+	 */
+	async stageRows(k: Knex, fileId: number): Promise<void> {
 		for await (const staged of this.stage.batches(BATCH_ROWS)) {
 			const batch: Pending[] = staged.map((r) => ({
 				...r,
-				chamberId: r.chamberId < 0 ? chamberIds.get(r.chamberId)! : r.chamberId,
+				chamberId: r.chamberId < 0 ? this.chamberIds.get(r.chamberId)! : r.chamberId,
 				plan: this.plans.get(r.planKey)!
 			}));
-			await this.insertBatch(trx, fileId, batch);
+			await k.transaction(async (trx) => {
+				const stored = await this.storedRows(trx, batch);
+				const fresh = batch.filter((p) => !stored.has(`${p.waferId}\u0000${p.plan.recipeStepId}`));
+				const createdAt = Date.now();
+				for (let i = 0; i < fresh.length; i += INSERT_ROWS)
+					await trx('ingest_staged_rows').insert(
+						fresh.slice(i, i + INSERT_ROWS).map((p) => ({
+							ingest_file_id: fileId,
+							wafer_id: p.waferId,
+							lot_id: p.lotId,
+							slot: p.slot,
+							chamber_id: p.chamberId,
+							recipe_step_id: p.plan.recipeStepId,
+							processed_at: p.processedAt,
+							feature_set_version: p.plan.featureSetVersion,
+							feature_values: encodeValues(p.values),
+							rf_on_s: p.rfOn,
+							created_at: createdAt
+						}))
+					);
+				this.stagedRows += fresh.length;
+				const already = batch.filter((p) => stored.has(`${p.waferId}\u0000${p.plan.recipeStepId}`));
+				if (already.length) await this.sortAlreadyStored(trx, already, stored);
+			});
 		}
+	}
+
+	/**
+	 * Publishing 3, the flip (one transaction, with the file's status): move the staged rows into
+	 * wafer_steps in one statement, store the kept rejections and the feature-set proposals.
+	 */
+	async flip(trx: Knex.Transaction, fileId: number): Promise<WriterStats> {
+		const cols = 'wafer_id, lot_id, slot, chamber_id, recipe_step_id, processed_at, feature_set_version, feature_values, rf_on_s, created_at';
+		const res = (await trx.raw(
+			`insert into wafer_steps (${cols}, scoring_state, ingest_file_id) select ${cols}, 'pending', ingest_file_id from ingest_staged_rows where ingest_file_id = ? on conflict (wafer_id, recipe_step_id) do nothing`,
+			[fileId]
+		)) as { changes?: number; rowCount?: number } | undefined;
+		// A row stored by another file between staging and the flip was skipped: count it as a duplicate.
+		// better-sqlite3 reports `changes`, pg `rowCount`; otherwise count the skipped rows.
+		const inserted = typeof res?.changes === 'number' ? res.changes : typeof res?.rowCount === 'number' ? res.rowCount : null;
+		const raced =
+			inserted !== null
+				? this.stagedRows - inserted
+				: Number(
+						(
+							await trx('ingest_staged_rows as s')
+								.join('wafer_steps as w', function () {
+									this.on('w.wafer_id', 's.wafer_id').andOn('w.recipe_step_id', 's.recipe_step_id');
+								})
+								.where('s.ingest_file_id', fileId)
+								.andWhereNot('w.ingest_file_id', fileId)
+								.count({ n: '*' })
+								.first()
+						)?.n ?? 0
+					);
+		// The staged rows are inert once flipped; removeStaged clears them after, in short transactions.
+		this.stats.rows.accepted += this.stagedRows - raced;
+		this.stats.rows.duplicate += raced;
 		const rows = this.kept.map((e) => ({ ingest_file_id: fileId, line: e.line, column: e.column, value: e.value, reason: e.reason }));
 		for (let i = 0; i < rows.length; i += INSERT_ROWS) await trx('ingest_rejections').insert(rows.slice(i, i + INSERT_ROWS));
 		const columns = this.header?.features.map((f) => f.name) ?? [];
@@ -419,70 +483,25 @@ export class FileWriter {
 		return this.stats;
 	}
 
-	/**
-	 * Write a batch, score the new rows. A wafer × step already stored is a duplicate only when its
-	 * content is the same (a no-op); with another chamber, lot, time, slot, RF-on time or values it is
-	 * refused as a conflict naming the differences (issue 13) — the stored row is never changed.
-	 */
-	private async insertBatch(trx: Knex.Transaction, fileId: number, batch: Pending[]): Promise<void> {
-		const createdAt = Date.now();
-		const inserted: Array<{ id: number; wafer_id: string; recipe_step_id: number }> = [];
-		for (let i = 0; i < batch.length; i += INSERT_ROWS) {
-			const part = await trx('wafer_steps')
-				.insert(
-					batch.slice(i, i + INSERT_ROWS).map((p) => ({
-						wafer_id: p.waferId,
-						lot_id: p.lotId,
-						chamber_id: p.chamberId,
-						recipe_step_id: p.plan.recipeStepId,
-						processed_at: p.processedAt,
-						slot: p.slot,
-						feature_set_version: p.plan.featureSetVersion,
-						feature_values: encodeValues(p.values),
-						rf_on_s: p.rfOn,
-						scoring_state: 'pending',
-						ingest_file_id: fileId,
-						created_at: createdAt
-					}))
-				)
-				.onConflict(['wafer_id', 'recipe_step_id'])
-				.ignore()
-				.returning(['id', 'wafer_id', 'recipe_step_id']);
-			inserted.push(...part);
+	/** The stored rows of a batch's wafer × steps, by `wafer\0recipeStepId`. */
+	private async storedRows(trx: Knex.Transaction, batch: Pending[]): Promise<Map<string, StoredRow>> {
+		const stored = new Map<string, StoredRow>();
+		const wafers = [...new Set(batch.map((p) => p.waferId))];
+		const wanted = new Set(batch.map((p) => `${p.waferId}\u0000${p.plan.recipeStepId}`));
+		for (let i = 0; i < wafers.length; i += INSERT_ROWS) {
+			const part: StoredRow[] = await trx('wafer_steps')
+				.whereIn('wafer_id', wafers.slice(i, i + INSERT_ROWS))
+				.select('id', 'wafer_id', 'recipe_step_id', 'chamber_id', 'lot_id', 'processed_at', 'slot', 'rf_on_s', 'feature_set_version', 'feature_values', 'ingest_file_id');
+			for (const r of part) {
+				const key = `${r.wafer_id}\u0000${r.recipe_step_id}`;
+				if (wanted.has(key)) stored.set(key, r);
+			}
 		}
-		const idOf = new Map(inserted.map((r) => [`${r.wafer_id}\u0000${r.recipe_step_id}`, Number(r.id)]));
-		const fresh: NewWaferStep[] = [];
-		const already: Pending[] = [];
-		for (const p of batch) {
-			const id = idOf.get(`${p.waferId}\u0000${p.plan.recipeStepId}`);
-			if (id === undefined) already.push(p);
-			else
-				fresh.push({
-					id,
-					chamberId: p.chamberId,
-					recipeStepId: p.plan.recipeStepId,
-					processedAt: p.processedAt,
-					featureSetVersion: p.plan.featureSetVersion,
-					values: p.values
-				});
-		}
-		this.stats.rows.accepted += fresh.length;
-		if (already.length) await this.sortAlreadyStored(trx, already);
-		const s = await scoreWaferSteps(trx, fresh);
-		this.stats.waferSteps.scored += s.scored;
-		this.stats.waferSteps.noBaseline += s.noBaseline;
-		this.stats.alarmsOpened.push(...s.alarmsOpened);
+		return stored;
 	}
 
 	/** Rows whose wafer × step is already stored: same content → duplicate; other content → refused with the differences. */
-	private async sortAlreadyStored(trx: Knex.Transaction, rows: Pending[]): Promise<void> {
-		const stored = new Map<string, StoredRow>();
-		for (let i = 0; i < rows.length; i += INSERT_ROWS) {
-			const part: StoredRow[] = await trx('wafer_steps')
-				.whereIn('wafer_id', [...new Set(rows.slice(i, i + INSERT_ROWS).map((d) => d.waferId))])
-				.select('id', 'wafer_id', 'recipe_step_id', 'chamber_id', 'lot_id', 'processed_at', 'slot', 'rf_on_s', 'feature_set_version', 'feature_values', 'ingest_file_id');
-			for (const r of part) stored.set(`${r.wafer_id}\u0000${r.recipe_step_id}`, r);
-		}
+	private async sortAlreadyStored(trx: Knex.Transaction, rows: Pending[], stored: Map<string, StoredRow>): Promise<void> {
 		const chamberCodes = new Map<number, string>();
 		for (const p of rows) {
 			const s = stored.get(`${p.waferId}\u0000${p.plan.recipeStepId}`);
@@ -541,4 +560,62 @@ export class FileWriter {
 		if (differing > 3) out.push(`${differing - 3} more feature values differ`);
 		return out;
 	}
+}
+
+/** Remove a file's staged rows, a batch per transaction (after its flip, or when it is undone). */
+export async function removeStaged(k: Knex, fileId: number): Promise<void> {
+	for (;;) {
+		const n = await k.transaction(async (trx) => {
+			const ids = await trx('ingest_staged_rows').where({ ingest_file_id: fileId }).limit(BATCH_ROWS).pluck('id');
+			for (let i = 0; i < ids.length; i += INSERT_ROWS) await trx('ingest_staged_rows').whereIn('id', ids.slice(i, i + INSERT_ROWS)).delete();
+			return ids.length;
+		});
+		if (n === 0) return;
+	}
+}
+
+/**
+ * Score a published file's wafer-steps still `pending`, oldest first, one transaction per batch (each
+ * short; the web server's writes pass between them). Also finishes a file whose scoring was interrupted.
+ */
+export async function scoreFile(k: Knex, fileId: number): Promise<ScoringResult> {
+	const total: ScoringResult = { scored: 0, noBaseline: 0, alarmsOpened: [] };
+	let lastIds = '';
+	for (;;) {
+		const done = await k.transaction(async (trx) => {
+			// The order first, without the vectors (sorting rows with their vectors would read them all).
+			const next: number[] = (
+				await trx('wafer_steps')
+					.where({ ingest_file_id: fileId, scoring_state: 'pending' })
+					.orderBy([{ column: 'processed_at' }, { column: 'id' }])
+					.limit(BATCH_ROWS)
+					.select('id')
+			).map((r) => Number(r.id));
+			const rows: Array<{ id: number; chamber_id: number; recipe_step_id: number; processed_at: number; feature_set_version: number; feature_values: Buffer }> = [];
+			for (let i = 0; i < next.length; i += INSERT_ROWS)
+				rows.push(...(await trx('wafer_steps').whereIn('id', next.slice(i, i + INSERT_ROWS)).select('id', 'chamber_id', 'recipe_step_id', 'processed_at', 'feature_set_version', 'feature_values')));
+			rows.sort((a, b) => Number(a.processed_at) - Number(b.processed_at) || Number(a.id) - Number(b.id));
+			const ids = rows.map((r) => r.id).join(',');
+			if (rows.length === 0 || ids === lastIds) return true; // nothing left (or nothing scoring can do)
+			lastIds = ids;
+			const r = await scoreWaferSteps(
+				trx,
+				rows.map((w) => ({
+					id: Number(w.id),
+					chamberId: Number(w.chamber_id),
+					recipeStepId: Number(w.recipe_step_id),
+					processedAt: Number(w.processed_at),
+					featureSetVersion: Number(w.feature_set_version),
+					values: decodeValues(w.feature_values)
+				}))
+			);
+			total.scored += r.scored;
+			total.noBaseline += r.noBaseline;
+			total.alarmsOpened.push(...r.alarmsOpened);
+			return false;
+		});
+		if (done) break;
+		await yieldToLoop();
+	}
+	return total;
 }

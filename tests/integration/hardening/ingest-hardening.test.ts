@@ -1,0 +1,150 @@
+/**
+ * Ingest hardening (issue 13, items 1, 3 and 6): rejections stay bounded per file and a file of empty
+ * lines is refused fast (and its repeat answered from the stored refusal); the database's write lock is
+ * free while a file is read, so a web write (a sign-in attempt) made during a large ingest succeeds at
+ * once; a stored wafer × step with other content is a conflict named with its differences, the same
+ * content a duplicate.
+ */
+import fs from 'node:fs';
+import path from 'node:path';
+import Database from 'better-sqlite3';
+import { afterAll, beforeAll, describe, expect, it } from 'vitest';
+import { useTempDb } from '../../helpers/temp-db.ts';
+import { ingestFile } from '../../../src/lib/server/ingest/index.ts';
+import { REJECTION_ROWS_KEPT, REFUSE_AFTER_ROWS } from '../../../src/lib/server/ingest/limits.ts';
+import { addChambers, count, csv, HEADER, row, rows, write } from '../ingest/helpers.ts';
+
+let env: Awaited<ReturnType<typeof useTempDb>>;
+beforeAll(async () => {
+	env = await useTempDb();
+	await addChambers(env.k, ['PM1', 'PM2']);
+});
+afterAll(() => env.cleanup());
+
+/** A valid header, then `n` lines of nothing but commas (issue 13: 77,000 of them in 2 MB). */
+/** `n` good rows whose wafer ids start with `prefix` (times from 2026-11-01, two minutes apart). */
+const named = (prefix: string, n: number, spec: Parameters<typeof rows>[2] = {}) => rows(n, 0, spec).map((r) => [`${prefix}${r[0]}`, ...r.slice(1)]);
+
+const commas = (n: number) => `${HEADER.join(',')}\n${`${','.repeat(HEADER.length - 1)}\n`.repeat(n)}`;
+
+describe('rejection amplification', () => {
+	it('a file of 77,000 empty lines is refused after the first 1,000, storing at most 1,000 rejections', async () => {
+		const file = write(env.dir, 'commas.csv', commas(77_000));
+		const filesBefore = await count(env.k, 'ingest_files');
+		const r = await ingestFile(file, { source: 'api' });
+		expect(r.status).toBe('rejected');
+		expect(r.fileError?.reason).toMatch(/^The first 1,000 lines were all refused, so the file is refused without reading the rest\. Most often: \w+ is empty \(1,000×\)/);
+		expect(r.fileError).toMatchObject({ line: 2, column: 'wafer_id', kind: 'input' });
+		expect(r.rows).toEqual({ total: REFUSE_AFTER_ROWS, accepted: 0, rejected: REFUSE_AFTER_ROWS, duplicate: 0 });
+		// every cell error of the rows read is counted; only the first REJECTION_ROWS_KEPT are kept in full
+		const cellsPerRow = r.rejectionCounts.filter((c) => c.count === REFUSE_AFTER_ROWS).length;
+		expect(cellsPerRow).toBeGreaterThanOrEqual(15);
+		expect(r.rejectionsTotal).toBe(r.rejectionCounts.reduce((s, c) => s + c.count, 0));
+		expect(r.rejectionCounts.find((c) => c.column === 'wafer_id')).toEqual({ column: 'wafer_id', reason: 'wafer_id is empty', count: REFUSE_AFTER_ROWS });
+		const stored = await count(env.k, 'ingest_rejections');
+		expect(stored).toBeLessThanOrEqual(REJECTION_ROWS_KEPT + 1);
+		expect(await count(env.k, 'wafer_steps')).toBe(0);
+
+		// the same bytes again: the stored refusal, not read again and not recorded again
+		const again = await ingestFile(file, { source: 'api', originalName: 'commas-again.csv' });
+		expect(again.status).toBe('rejected');
+		expect(again.duplicateOfFileId).toBe(r.fileId);
+		expect(again.fileError?.reason).toBe(r.fileError?.reason);
+		expect(again.summary).toMatch(/was refused, as these same bytes were before \(file #\d+\)/);
+		expect(await count(env.k, 'ingest_files')).toBe(filesBefore + 1);
+		expect(await count(env.k, 'ingest_rejections')).toBe(stored);
+	});
+
+	it('a file with good rows among 5,000 bad ones is read to the end: all counted, 1,000 kept in full', async () => {
+		const bad = Array.from({ length: 5_000 }, (_, i) => row(100 + i, { values: ['x', ...row(0).slice(8)] }).slice(0, HEADER.length));
+		const file = write(env.dir, 'mixed.csv', csv(HEADER, [row(9_000), ...bad, row(9_001)]));
+		const before = await count(env.k, 'ingest_rejections');
+		const r = await ingestFile(file, { source: 'api' });
+		expect(r.status).toBe('done');
+		expect(r.rows).toEqual({ total: 5_002, accepted: 2, rejected: 5_000, duplicate: 0 });
+		expect(r.rejectionsTotal).toBe(5_000);
+		expect(r.rejectionCounts).toEqual([{ column: 'oes_337.1', reason: 'oes_337.1 is not a number', count: 5_000 }]);
+		expect(r.rejections).toHaveLength(200);
+		expect((await count(env.k, 'ingest_rejections')) - before).toBe(REJECTION_ROWS_KEPT);
+	});
+
+	it('a file refused for the fab state (unknown chamber) is read to the end and never remembered as refused', async () => {
+		const file = write(env.dir, 'unknown.csv', csv(HEADER, rows(1_200, 20_000, { chamber: 'PM9' })));
+		const r = await ingestFile(file, { source: 'api' });
+		expect(r.status).toBe('done');
+		expect(r.rows.rejected).toBe(1_200);
+		expect(r.rejectionCounts[0]).toMatchObject({ column: 'chamber_id', count: 1_200 });
+		await addChambers2(['PM9']);
+		const again = await ingestFile(file, { source: 'api' });
+		expect(again.rows.accepted).toBe(1_200);
+	});
+});
+
+async function addChambers2(codes: string[]) {
+	const tool = await env.k('tools').first('id');
+	for (const code of codes) await env.k('chambers').insert({ code, name: code, tool_id: tool.id, created_at: Date.now() });
+}
+
+describe('the write lock during a large ingest', () => {
+	it('is free while the file is read: a sign-in attempt written from another connection succeeds at once', async () => {
+		const n = 6_000;
+		const file = write(env.dir, 'large.csv', csv(HEADER, named('LG', n)));
+		// another connection, as the web server's would be, not waiting at all for a lock (busy_timeout 0)
+		const web = new Database(path.join(env.dir, 'test.sqlite'));
+		web.pragma('busy_timeout = 0');
+		const insert = web.prepare("insert into sign_in_attempts (username, client_address, at, success) values ('probe', '10.0.0.1', ?, 0)");
+		const outcomes: string[] = [];
+		try {
+			const r = await ingestFile(file, {
+				source: 'inbox',
+				onProgress: (p) => {
+					if (p.phase !== 'processing') return;
+					try {
+						insert.run(Date.now());
+						outcomes.push('ok');
+					} catch (e) {
+						outcomes.push((e as Error).message);
+					}
+				}
+			});
+			expect(r.rows.accepted).toBe(n);
+		} finally {
+			web.close();
+		}
+		expect(outcomes.length).toBeGreaterThan(3);
+		expect(outcomes.filter((o) => o !== 'ok')).toEqual([]);
+	});
+
+	it('a file refused while it is read has written nothing (stored whole or not at all)', async () => {
+		const before = { ws: await count(env.k, 'wafer_steps'), steps: await count(env.k, 'recipe_steps') };
+		const good = named('CUT', 3_000, { recipe: 'NEW-RECIPE' }).map((r) => r.join(','));
+		const text = `${HEADER.join(',')}\n${good.join('\n')}\n"unclosed,${row(1).slice(1).join(',')}\n`;
+		const r = await ingestFile(write(env.dir, 'cut.csv', text), { source: 'inbox' });
+		expect(r.status).toBe('rejected');
+		expect(await count(env.k, 'wafer_steps')).toBe(before.ws);
+		expect(await count(env.k, 'recipe_steps')).toBe(before.steps);
+		expect(fs.readdirSync(path.join(env.dir)).filter((f) => f.endsWith('.stage'))).toEqual([]);
+	});
+});
+
+describe('a conflicting row is not a duplicate', () => {
+	it('the same content is a no-op; another chamber, lot, time or values is refused with the differences', async () => {
+		const first = await ingestFile(write(env.dir, 'c1.csv', csv(HEADER, rows(3, 500))), { source: 'api' });
+		expect(first.rows.accepted).toBe(3);
+		const ids = ['W00500', 'W00501', 'W00502'];
+		const storedBefore = await env.k('wafer_steps').whereIn('wafer_id', ids).orderBy('wafer_id').select();
+		const conflicting = row(501, { chamber: 'PM2', lot: 'LX', at: '2026-11-03T00:00:00Z' });
+		const values = row(502);
+		values[8] = '9999';
+		const r = await ingestFile(write(env.dir, 'c2.csv', csv(HEADER, [row(500), conflicting, values])), { source: 'api' });
+		expect(r.rows).toEqual({ total: 3, accepted: 0, rejected: 2, duplicate: 1 });
+		expect(r.duplicates.map((d) => d.waferId)).toEqual(['W00500']);
+		const [a, b] = r.rejections;
+		expect(a).toMatchObject({ line: 3, column: 'wafer_id', value: 'W00501' });
+		expect(a.reason).toMatch(/is already stored \(file #\d+\) with other content — chamber_id PM2 ≠ stored PM1; lot_id LX ≠ stored L\d+; processed_at 2026-11-03T00:00:00\.000Z ≠ stored /);
+		expect(b.reason).toMatch(/oes_656\.3 9999 ≠ stored /);
+		expect(r.rejectionCounts).toEqual([{ column: 'wafer_id', reason: 'conflicts with a stored wafer × step (same wafer and step, other content)', count: 2 }]);
+		const storedAfter = await env.k('wafer_steps').whereIn('wafer_id', ids).orderBy('wafer_id').select();
+		expect(storedAfter).toEqual(storedBefore);
+	});
+});
