@@ -19,6 +19,7 @@ import { monitorEventLoopDelay } from 'node:perf_hooks';
 import Database from 'better-sqlite3';
 import { migrateLatest, openDb, setDb } from '../src/lib/server/db.ts';
 import { ingestFile } from '../src/lib/server/ingest/index.ts';
+import { writeLargeCsv } from '../tests/helpers/large-file.ts';
 import { deepJson, deepJsonValue, overlongLine, tenThousandColumns } from '../tests/fixtures/bad-input/generate.ts';
 
 const FEATURES_26 = Array.from({ length: 20 }, (_, j) => `oes_${(300 + j * 25).toFixed(1)}`);
@@ -71,24 +72,6 @@ async function comma() {
 	fs.rmSync(dir, { recursive: true, force: true });
 }
 
-function bigFile(p: string, rows: number, features: number) {
-	const names = Array.from({ length: features - 2 }, (_, j) => `oes_${(200 + j * 2.5).toFixed(1)}`);
-	const out = fs.openSync(p, 'w');
-	fs.writeSync(out, ['wafer_id', 'lot_id', 'chamber_id', 'recipe', 'step', 'processed_at', ...names, 'pressure_mtorr', 'rf_reflected_w'].join(',') + '\n');
-	const t0 = Date.UTC(2026, 10, 1);
-	let buf: string[] = [];
-	for (let i = 0; i < rows; i++) {
-		const v = names.map((_, j) => (1000 + j + ((i * 7 + j * 13) % 97) / 10).toFixed(3));
-		buf.push([`BW${i}`, `BL${i >> 5}`, 'PM1', 'BIG-ETCH', i % 2 ? 'main' : 'over', new Date(t0 + i * 60_000).toISOString(), ...v, '15.07', '2.31'].join(','));
-		if (buf.length === 1000) {
-			fs.writeSync(out, buf.join('\n') + '\n');
-			buf = [];
-		}
-	}
-	if (buf.length) fs.writeSync(out, buf.join('\n') + '\n');
-	fs.closeSync(out);
-}
-
 async function lock() {
 	const rows = Number(process.env.LOCKSTEP_LOCK_ROWS ?? 40_000);
 	const dir = fs.mkdtempSync(path.join(os.tmpdir(), 'lockstep-lock-'));
@@ -96,7 +79,7 @@ async function lock() {
 	await k.destroy();
 	setDb(null);
 	const big = path.join(dir, 'big.csv');
-	bigFile(big, rows, 250);
+	writeLargeCsv(big, rows, 250);
 	const size = fs.statSync(big).size;
 	const conn = new Database(file);
 	conn.pragma('busy_timeout = 5000');

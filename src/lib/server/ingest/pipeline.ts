@@ -28,14 +28,14 @@ import { now } from '../time.ts';
 import { ByteInspector, type InspectResult, formatBytes } from './bytes.ts';
 import { getSetting } from '../settings.ts';
 import { readCsvFile } from './csv.ts';
-import { IngestFileError } from './errors.ts';
+import { clip, IngestFileError } from './errors.ts';
 import { feedJsonRows, parseJsonRows } from './json.ts';
 import { JSON_LIMIT_BYTES, MAX_LINE_BYTES, REPORT_REJECTION_CAP } from './limits.ts';
 import { CatalogChanged, undoCreated, type CreatedIds } from './catalog.ts';
 import { spoolDir } from './spool.ts';
 import { randomBytes } from 'node:crypto';
 import { summarise, type IngestReport, type IngestSource, type Rejection } from './report.ts';
-import { FileWriter, removeStaged, scoreFile, type WriterStats } from './writer.ts';
+import { FileWriter, removeStaged, scoreFile, writeFirst, type WriterStats } from './writer.ts';
 
 export interface IngestProgress {
 	phase: 'checking' | 'processing' | 'done';
@@ -280,6 +280,7 @@ export async function ingestFile(filePath: string, opts: IngestOptions): Promise
  */
 async function undoUnpublished(k: Knex, fileId: number): Promise<void> {
 	await k.transaction(async (trx) => {
+		await writeFirst(trx, fileId);
 		const f = await trx('ingest_files').where({ id: fileId }).first('status', 'staging_json');
 		if (!f || f.status !== 'processing') return;
 		const staging = f.staging_json ? (JSON.parse(f.staging_json) as { created?: CreatedIds }) : {};
@@ -393,7 +394,8 @@ export async function recordRefused(k: Knex = db(), base: Base, opts: IngestOpti
 
 /** An internal failure: nothing of the file was kept; record the attempt when the database still answers. */
 async function recordFailed(k: Knex, base: Base, opts: IngestOptions, e: unknown): Promise<IngestReport> {
-	const reason = e instanceof Error ? e.message : String(e);
+	// clipped: a failed statement's message can carry its SQL with every bound vector
+	const reason = clip(e instanceof Error ? e.message : String(e), 500);
 	const report = makeReport(base, 'failed', emptyStats(), { fileError: { line: 0, column: null, value: null, reason } });
 	try {
 		const [row] = await k('ingest_files').insert(fileRow(base, opts, 'failed', report)).returning('id');
@@ -401,7 +403,7 @@ async function recordFailed(k: Knex, base: Base, opts: IngestOptions, e: unknown
 	} catch {
 		/* the database itself is the problem: the caller logs the report */
 	}
-	console.error(`ingest of ${base.fileName} failed:`, e);
+	console.error(`ingest of ${base.fileName} failed: ${reason}`);
 	return report;
 }
 

@@ -71,6 +71,16 @@ interface StoredRow {
 
 const yieldToLoop = () => new Promise<void>((resolve) => setImmediate(resolve));
 
+/**
+ * Take SQLite's write lock at a transaction's start with a no-op write on the file's row. A transaction
+ * that reads first and writes later fails at once with SQLITE_BUSY_SNAPSHOT when another process
+ * committed in between (busy_timeout does not apply to that upgrade); one that writes first waits its
+ * turn instead. On PostgreSQL the no-op costs one row lock.
+ */
+export async function writeFirst(trx: Knex.Transaction, fileId: number): Promise<void> {
+	await trx('ingest_files').where({ id: fileId }).update({ id: fileId });
+}
+
 export interface WriterStats {
 	rows: { total: number; accepted: number; rejected: number; duplicate: number };
 	waferSteps: { scored: number; noBaseline: number };
@@ -409,6 +419,7 @@ export class FileWriter {
 				plan: this.plans.get(r.planKey)!
 			}));
 			await k.transaction(async (trx) => {
+				await writeFirst(trx, fileId);
 				const stored = await this.storedRows(trx, batch);
 				const fresh = batch.filter((p) => !stored.has(`${p.waferId}\u0000${p.plan.recipeStepId}`));
 				const createdAt = Date.now();
@@ -566,6 +577,7 @@ export class FileWriter {
 export async function removeStaged(k: Knex, fileId: number): Promise<void> {
 	for (;;) {
 		const n = await k.transaction(async (trx) => {
+			await writeFirst(trx, fileId);
 			const ids = await trx('ingest_staged_rows').where({ ingest_file_id: fileId }).limit(BATCH_ROWS).pluck('id');
 			for (let i = 0; i < ids.length; i += INSERT_ROWS) await trx('ingest_staged_rows').whereIn('id', ids.slice(i, i + INSERT_ROWS)).delete();
 			return ids.length;
@@ -583,6 +595,7 @@ export async function scoreFile(k: Knex, fileId: number): Promise<ScoringResult>
 	let lastIds = '';
 	for (;;) {
 		const done = await k.transaction(async (trx) => {
+			await writeFirst(trx, fileId);
 			// The order first, without the vectors (sorting rows with their vectors would read them all).
 			const next: number[] = (
 				await trx('wafer_steps')
