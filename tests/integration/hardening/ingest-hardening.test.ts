@@ -207,3 +207,33 @@ describe('a conflicting row is not a duplicate', () => {
 		expect(storedAfter).toEqual(storedBefore);
 	});
 });
+
+describe('a file written straight into the inbox', () => {
+	it('is not taken while cut inside a line, nor while it grows; once complete every row is stored as written', async () => {
+		const { runInbox } = await import('../../../jobs/ingest-inbox.ts');
+		const inbox = path.join(env.dir, 'inbox');
+		fs.mkdirSync(inbox, { recursive: true });
+		const all = rows(20, 700);
+		const text = csv(HEADER, all);
+		const cutAt = text.indexOf('15.0', text.indexOf('W00711')) + 2; // inside pressure_mtorr of the 12th row
+		const file = path.join(inbox, 'direct.csv');
+		fs.writeFileSync(file, text.slice(0, cutAt));
+		const opts = { inboxDir: inbox, settleMs: 0, stableMs: 150, incompleteGraceMs: 60_000, log: () => {} };
+		expect(await runInbox(opts)).toEqual([]);
+		expect(fs.existsSync(file)).toBe(true);
+		expect(await env.k('wafer_steps').where('wafer_id', 'like', 'W007%').count({ n: '*' }).first()).toEqual({ n: 0 });
+
+		// Grows (a complete line) between the two scans of a run: left for the next run.
+		const more = text.indexOf('\n', cutAt) + 1;
+		const growing = runInbox(opts);
+		setTimeout(() => fs.appendFileSync(file, text.slice(cutAt, more)), 50);
+		expect(await growing).toEqual([]);
+
+		fs.appendFileSync(file, text.slice(more));
+		const [o] = await runInbox(opts);
+		expect(o.report.rows).toEqual({ total: 20, accepted: 20, rejected: 0, duplicate: 0 });
+		const stored = await env.k('wafer_steps').where({ wafer_id: 'W00711' }).first('feature_values');
+		const pressure = new Float64Array(new Uint8Array(stored.feature_values).buffer)[HEADER.indexOf('pressure_mtorr') - 7];
+		expect(pressure).toBe(Number(all[11][HEADER.indexOf('pressure_mtorr')]));
+	});
+});
