@@ -20,15 +20,7 @@ import Database from 'better-sqlite3';
 import { migrateLatest, openDb, setDb } from '../src/lib/server/db.ts';
 import { ingestFile } from '../src/lib/server/ingest/index.ts';
 import { writeLargeCsv } from '../tests/helpers/large-file.ts';
-import { deepJson, deepJsonValue, overlongLine, tenThousandColumns } from '../tests/fixtures/bad-input/generate.ts';
-
-const FEATURES_26 = Array.from({ length: 20 }, (_, j) => `oes_${(300 + j * 25).toFixed(1)}`);
-const HEADER_26 = ['wafer_id', 'lot_id', 'chamber_id', 'recipe', 'step', 'processed_at', ...FEATURES_26];
-
-/** The attack file of issue 13 item 1: a valid header of 26 columns, then 77,000 lines of 25 commas. */
-export function commaFile(lines = 77_000): Buffer {
-	return Buffer.from(`${HEADER_26.join(',')}\n${`${','.repeat(HEADER_26.length - 1)}\n`.repeat(lines)}`);
-}
+import { commaFile, deepJson, deepJsonValue, overlongLine, tenThousandColumns } from '../tests/fixtures/bad-input/generate.ts';
 
 function dbBytes(file: string): number {
 	return ['', '-wal', '-shm'].reduce((s, ext) => s + (fs.existsSync(file + ext) ? fs.statSync(file + ext).size : 0), 0);

@@ -29,7 +29,7 @@ import { ByteInspector, type InspectResult, formatBytes } from './bytes.ts';
 import { getSetting } from '../settings.ts';
 import { readCsvFile } from './csv.ts';
 import { clip, IngestFileError } from './errors.ts';
-import { feedJsonRows, parseJsonRows } from './json.ts';
+import { checkJsonDepth, feedJsonRows, parseJsonRows } from './json.ts';
 import { JSON_LIMIT_BYTES, MAX_LINE_BYTES, REPORT_REJECTION_CAP } from './limits.ts';
 import { CatalogChanged, undoCreated, type CreatedIds } from './catalog.ts';
 import { spoolDir } from './spool.ts';
@@ -180,7 +180,11 @@ export async function ingestFile(filePath: string, opts: IngestOptions): Promise
 
 	let jsonRows: Record<string, unknown>[] | null = null;
 	try {
-		if (format === 'json') jsonRows = parseJsonRows(await fs.promises.readFile(filePath, 'utf8'));
+		if (format === 'json') {
+			const text = await fs.promises.readFile(filePath, 'utf8');
+			await checkJsonDepth(text);
+			jsonRows = parseJsonRows(text);
+		}
 	} catch (e) {
 		if (e instanceof IngestFileError) return recordRefused(k, base, opts, e);
 		throw e;

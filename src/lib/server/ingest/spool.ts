@@ -92,7 +92,10 @@ export async function spoolStream(
 		// A body refused for its content (binary, encoding, an over-long line) is read to its end, up to
 		// the size limit, so the client gets the located answer instead of a connection reset mid-send.
 		if (e instanceof IngestFileError && e.kind === 'input') await drain(input, opts.limitBytes - done);
-		input.destroy();
+		// The rest is left unread, never destroyed: destroying the body resets the connection, and a
+		// client still sending (a chunked upload past the size limit) saw a reset instead of the 413
+		// (issue 13). Node's server discards what is still sent once the answer is out (bounded by its
+		// requestTimeout) and the client reads the answer.
 		throw e;
 	}
 }
