@@ -32,7 +32,7 @@ import { clip, IngestFileError } from './errors.ts';
 import { checkJsonDepth, feedJsonRows, parseJsonRows } from './json.ts';
 import { JSON_LIMIT_BYTES, MAX_LINE_BYTES, REPORT_REJECTION_CAP } from './limits.ts';
 import { CatalogChanged, undoCreated, type CreatedIds } from './catalog.ts';
-import { spoolDir } from './spool.ts';
+import { spoolDir, writeTemp } from './spool.ts';
 import { randomBytes } from 'node:crypto';
 import { summarise, type IngestReport, type IngestSource, type Rejection } from './report.ts';
 import { FileWriter, removeStaged, scoreFile, writeFirst, type WriterStats } from './writer.ts';
@@ -413,7 +413,6 @@ async function recordFailed(k: Knex, base: Base, opts: IngestOptions, e: unknown
 
 /** Ingest rows already in memory (JSON-shaped), e.g. from a script. */
 export async function ingestRows(rows: Record<string, unknown>[], opts: IngestOptions & { originalName: string }): Promise<IngestReport> {
-	const { writeTemp } = await import('./spool.ts');
 	const tmp = await writeTemp(Buffer.from(JSON.stringify(rows)), '.json');
 	try {
 		return await ingestFile(tmp, { ...opts, format: 'json' });
