@@ -237,3 +237,58 @@ describe('a file written straight into the inbox', () => {
 		expect(pressure).toBe(Number(all[11][HEADER.indexOf('pressure_mtorr')]));
 	});
 });
+
+describe('orphan spool files', () => {
+	it('of a process that is gone are swept at start; a live process keeps its own', async () => {
+		const { spawnSync } = await import('node:child_process');
+		const { sweepSpool } = await import('../../../src/lib/server/ingest/spool.ts');
+		const dead = spawnSync(process.execPath, ['-e', 'console.log(process.pid)'], { encoding: 'utf8' });
+		const deadPid = Number(dead.stdout.trim());
+		const root = path.dirname(spoolDir());
+		const orphanDir = path.join(root, String(deadPid));
+		fs.mkdirSync(orphanDir, { recursive: true });
+		fs.writeFileSync(path.join(orphanDir, 'killed-upload.csv'), 'wafer_id\n');
+		fs.writeFileSync(path.join(orphanDir, 'killed.stage'), Buffer.alloc(16));
+		const mine = path.join(spoolDir(), 'in-use.csv');
+		fs.writeFileSync(mine, 'wafer_id\n');
+		try {
+			expect(sweepSpool()).toBeGreaterThanOrEqual(2);
+			expect(fs.existsSync(orphanDir)).toBe(false);
+			expect(fs.existsSync(mine)).toBe(true);
+		} finally {
+			fs.rmSync(mine, { force: true });
+		}
+	});
+});
+
+describe('an interrupted publish', () => {
+	it('is undone at start when it had not flipped, and its scoring finished when it had', async () => {
+		const { recoverInterruptedIngests } = await import('../../../src/lib/server/ingest/index.ts');
+		const k = env.k;
+		// A file that reached staging: its row, a recipe step it created, staged rows.
+		const [recipe] = await k('recipes').insert({ code: 'HALF-R', name: 'HALF-R' }).returning('id');
+		const recipeId = Number(recipe.id ?? recipe);
+		const [step] = await k('recipe_steps').insert({ recipe_id: recipeId, name: 'main', position: 0, feature_set_version: 1 }).returning('id');
+		const stepId = Number(step.id ?? step);
+		await k('features').insert({ recipe_step_id: stepId, set_version: 1, position: 0, name: 'oes_750.4', kind: 'oes', wavelength_nm: 750.4, unit: null });
+		const [f] = await k('ingest_files')
+			.insert({ source: 'inbox', original_name: 'half.csv', sha256: 'a'.repeat(64), size_bytes: 10, status: 'processing', received_at: Date.now(), staging_json: JSON.stringify({ phase: 'staging', created: { recipeIds: [recipeId], recipeStepIds: [stepId], chamberIds: [] } }) })
+			.returning('id');
+		const halfId = Number(f.id ?? f);
+		const chamber = await k('chambers').where({ code: 'PM1' }).first('id');
+		await k('ingest_staged_rows').insert({ ingest_file_id: halfId, wafer_id: 'HALF1', lot_id: 'L', chamber_id: chamber.id, recipe_step_id: stepId, processed_at: Date.now() - 1000, feature_set_version: 1, feature_values: Buffer.alloc(8), created_at: Date.now() });
+		// A flipped file whose scoring was cut off: its rows pending.
+		const flipped = await ingestFile(write(env.dir, 'flipped.csv', csv(HEADER, rows(4, 900))), { source: 'inbox' });
+		await k('wafer_steps').where({ ingest_file_id: flipped.fileId }).update({ scoring_state: 'pending' });
+		await k('ingest_files').where({ id: flipped.fileId }).update({ staging_json: JSON.stringify({ phase: 'scoring' }) });
+
+		expect(await recoverInterruptedIngests(k, ['upload', 'api'])).toEqual({ undone: 0, scored: 0 }); // not theirs
+		expect(await recoverInterruptedIngests(k, ['inbox'])).toEqual({ undone: 1, scored: 1 });
+		expect(await k('ingest_files').where({ id: halfId }).first()).toBeUndefined();
+		expect(await count(k, 'ingest_staged_rows')).toBe(0);
+		expect(await k('recipe_steps').where({ id: stepId }).first()).toBeUndefined();
+		expect(await k('recipes').where({ id: recipeId }).first()).toBeUndefined();
+		expect(await k('wafer_steps').where({ ingest_file_id: flipped.fileId, scoring_state: 'pending' }).first()).toBeUndefined();
+		expect((await k('ingest_files').where({ id: flipped.fileId }).first('staging_json')).staging_json).toBeNull();
+	});
+});
