@@ -7,6 +7,8 @@
  * - lock: a large file (LOCKSTEP_LOCK_ROWS rows, default 40,000, × 250 features) ingested by a child
  *   process while this process writes a row every 100 ms on its own connection with SQLite's
  *   busy_timeout of 5 s: the longest wait for the write lock and the writes that failed.
+ * - export: the wafer-table CSV export of a chamber with 77,000 wafer-steps, streamed, while
+ *   monitorEventLoopDelay samples the event loop: the longest stall and the time.
  * - stall: the bad-input corpus (tests/fixtures/bad-input plus the generated large members and the comma
  *   file) ingested one after another in this process while perf_hooks' monitorEventLoopDelay samples
  *   the event loop: the longest stall.
@@ -141,8 +143,32 @@ async function stall() {
 	fs.rmSync(dir, { recursive: true, force: true });
 }
 
+async function exportStall() {
+	const dir = fs.mkdtempSync(path.join(os.tmpdir(), 'lockstep-export-'));
+	const { k } = await freshDb(dir);
+	const big = path.join(dir, 'export.csv');
+	writeLargeCsv(big, 77_000, 12, 'PM1', 'EX', Date.UTC(2026, 8, 1));
+	const r = await ingestFile(big, { source: 'seed', k });
+	const { chamberWafersCsvChunks, parseWaferTableParams } = await import('../src/lib/server/views/chamber-wafers.ts');
+	const chamber = await k('chambers').where({ code: 'PM1' }).first('id');
+	const q = parseWaferTableParams(new URLSearchParams('from=2026-08-01T00:00:00Z&to=2026-12-31T00:00:00Z'));
+	if (!q.ok) throw new Error(q.error);
+	const h = monitorEventLoopDelay({ resolution: 10 });
+	h.enable();
+	const t0 = performance.now();
+	const { rows, chunks } = await chamberWafersCsvChunks('PM1', Number(chamber.id), null, q.value, k);
+	let bytes = 0;
+	for await (const c of chunks) bytes += c.length;
+	h.disable();
+	console.log(`wafer-table CSV export of ${rows} rows (${(bytes / 1e6).toFixed(1)} MB; ${r.rows.accepted} stored): ${(performance.now() - t0).toFixed(0)} ms, longest event-loop stall ${(h.max / 1e6).toFixed(0)} ms`);
+	await k.destroy();
+	setDb(null);
+	fs.rmSync(dir, { recursive: true, force: true });
+}
+
 const which = process.argv.slice(2);
 const all = which.length === 0;
 if (all || which.includes('comma')) await comma();
 if (all || which.includes('stall')) await stall();
+if (all || which.includes('export')) await exportStall();
 if (all || which.includes('lock')) await lock();

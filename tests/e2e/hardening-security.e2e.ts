@@ -29,6 +29,14 @@ async function createAccount(username: string, password: string, role = 'viewer'
 		await k.destroy();
 	}
 }
+/** The viewer's sign-in form posted to another server (same origin as that server). */
+const signInAt = (serverBase: string) =>
+	fetch(`${serverBase}/sign-in`, {
+		method: 'POST',
+		redirect: 'manual',
+		headers: { origin: serverBase, 'content-type': 'application/x-www-form-urlencoded', accept: 'text/html' },
+		body: new URLSearchParams({ username: TEST_USERS.viewer, password: TEST_PASSWORD })
+	});
 const login = (username: string, password: string) => request('/sign-in', { form: { username, password, next: '/' } });
 
 let browser: Browser;
@@ -50,12 +58,7 @@ describe('session cookies', () => {
 	it('are Secure when LOCKSTEP_SECURE_COOKIES=true (a second server over the same data)', async () => {
 		const s = await startServer(inject('dataDir'), { LOCKSTEP_SECURE_COOKIES: 'true' });
 		try {
-			const r = await fetch(`${s.base}/sign-in`, {
-				method: 'POST',
-				redirect: 'manual',
-				headers: { origin: s.base, 'content-type': 'application/x-www-form-urlencoded', accept: 'text/html' },
-				body: new URLSearchParams({ username: TEST_USERS.viewer, password: TEST_PASSWORD })
-			});
+			const r = await signInAt(s.base);
 			expect(r.status).toBe(303);
 			const c = sessionCookie(r);
 			expect(c).toMatch(/;\s*Secure/i);
@@ -168,12 +171,7 @@ describe('sign-in hardening (issue 13)', () => {
 	it('npm start without ORIGIN: the sign-in form works on the address it serves', async () => {
 		const s = await startServer(inject('dataDir'), { ORIGIN: '' });
 		try {
-			const r = await fetch(`${s.base}/sign-in`, {
-				method: 'POST',
-				redirect: 'manual',
-				headers: { origin: s.base, 'content-type': 'application/x-www-form-urlencoded', accept: 'text/html' },
-				body: new URLSearchParams({ username: TEST_USERS.viewer, password: TEST_PASSWORD })
-			});
+			const r = await signInAt(s.base);
 			expect(r.status).toBe(303);
 			expect(sessionCookie(r)).not.toBe('');
 		} finally {

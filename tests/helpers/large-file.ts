@@ -3,14 +3,14 @@ import fs from 'node:fs';
 
 /**
  * `rows` rows × `features` feature columns (OES channels plus pressure and reflected power) for chamber
- * `chamber`, recipe BIG-ETCH, alternating steps, one minute apart from 2026-11-01 (≈ 2.3 kB a row at 250 features).
+ * `chamber`, recipe BIG-ETCH, alternating steps, one minute apart from `startMs` (default 2026-11-01) (≈ 2.3 kB a row at 250 features).
  */
-export function writeLargeCsv(file: string, rows: number, features: number, chamber = 'PM1', prefix = 'BW'): void {
+export function writeLargeCsv(file: string, rows: number, features: number, chamber = 'PM1', prefix = 'BW', startMs = Date.UTC(2026, 10, 1)): void {
 	const names = Array.from({ length: features - 2 }, (_, j) => `oes_${(200 + j * 2.5).toFixed(1)}`);
 	const out = fs.openSync(file, 'w');
 	try {
 		fs.writeSync(out, ['wafer_id', 'lot_id', 'chamber_id', 'recipe', 'step', 'processed_at', ...names, 'pressure_mtorr', 'rf_reflected_w'].join(',') + '\n');
-		const t0 = Date.UTC(2026, 10, 1);
+		const t0 = startMs;
 		let buf: string[] = [];
 		for (let i = 0; i < rows; i++) {
 			const v = names.map((_, j) => (1000 + j + ((i * 7 + j * 13) % 97) / 10).toFixed(3));
