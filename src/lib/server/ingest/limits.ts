@@ -13,6 +13,12 @@ export const MAX_COLUMNS = 4096;
 /** Rows queued before they are written and scored together (scoring has a cost per chamber × step group). */
 export const BATCH_ROWS = 2000;
 
+/**
+ * A file with at most this many accepted rows is published in one transaction (its lock is no longer
+ * than one batch of a large file's); a larger one is staged in batches and flipped (pipeline.ts).
+ */
+export const DIRECT_ROWS = 2000;
+
 /** Rows per INSERT: Knex writes a multi-row insert on SQLite as a compound SELECT, limited to 500 terms. */
 export const INSERT_ROWS = 500;
 

@@ -6,12 +6,16 @@
  *    rows are staged in a temporary file (staging.ts). No write lock is held, so the web server's
  *    writes (sign-ins, acknowledgements) are not held up however long the file is (issue 13). A file
  *    refused while it is read leaves nothing but its refusal record.
- * 2. publishing — the file's `ingest_files` row, its wafer-steps, their scores, the recipe steps and
- *    chambers they need and its kept rejections are written in ONE transaction. A crash at any point
- *    leaves nothing of the file in the database (SQLite rolls an uncommitted transaction back when it
- *    reopens), so reprocessing the same input after a restart ends in the state an uninterrupted run
- *    would have. The transaction only inserts and scores: parsing is done, and HTTP bodies were spooled
- *    to a temporary file first (see spool.ts), so its length does not depend on a client's speed.
+ * 2. publishing — a small file (≤ DIRECT_ROWS rows) in ONE transaction: its `ingest_files` row, its
+ *    wafer-steps, their scores, the recipe steps and chambers they need, its kept rejections. A large
+ *    file in short transactions: its row (`processing`) and what it creates; its rows copied into
+ *    `ingest_staged_rows` a batch at a time; the flip — one INSERT … SELECT into wafer_steps with the
+ *    status `done` — and then its scoring a batch at a time. Before the flip nothing of the file is
+ *    visible; a crash before it is undone by `recoverInterruptedIngests` when the owning process starts
+ *    (the inbox file is still in the inbox, an upload's client got no answer), a crash after it leaves
+ *    a whole file whose scoring is finished then. Reprocessing the same input after a restart ends in
+ *    the state an uninterrupted run would have. No transaction waits on parsing or on a client (HTTP
+ *    bodies are spooled to a temporary file first, see spool.ts).
  *
  * Idempotency: a file whose SHA-256 matches an earlier file that was stored completely (no rejected
  * row) is a no-op; a wafer × recipe step already stored with the same content is counted as a
@@ -30,7 +34,7 @@ import { getSetting } from '../settings.ts';
 import { readCsvFile } from './csv.ts';
 import { clip, IngestFileError } from './errors.ts';
 import { checkJsonDepth, feedJsonRows, parseJsonRows } from './json.ts';
-import { JSON_LIMIT_BYTES, MAX_LINE_BYTES, REPORT_REJECTION_CAP } from './limits.ts';
+import { DIRECT_ROWS, JSON_LIMIT_BYTES, MAX_LINE_BYTES, REPORT_REJECTION_CAP } from './limits.ts';
 import { CatalogChanged, undoCreated, type CreatedIds } from './catalog.ts';
 import { spoolDir, writeTemp } from './spool.ts';
 import { randomBytes } from 'node:crypto';
@@ -210,9 +214,7 @@ export async function ingestFile(filePath: string, opts: IngestOptions): Promise
 					onChunk: (p) => progress({ phase: 'processing', bytesDone: p.bytesDone, bytesTotal: info.sizeBytes, rows: p.rows })
 				});
 			await writer.endOfInput();
-			// Phase 2: publish in short transactions. The file's row says `processing` until the flip, so an
-			// interrupted publish is undone when its process starts again (recoverInterruptedIngests).
-			const fileId = await k.transaction(async (trx) => {
+			const recordFile = async (trx: Knex.Transaction): Promise<number> => {
 				// The INSERT comes first so this transaction holds SQLite's write lock from its start: two
 				// processes publishing at once then queue instead of failing on a stale read snapshot.
 				const [row] = await trx('ingest_files')
@@ -231,6 +233,39 @@ export async function ingestFile(filePath: string, opts: IngestOptions): Promise
 				const again = await findCompleteFile(trx, info.sha256);
 				if (again !== null) throw new DuplicateFile(again);
 				await writer.prepare(trx);
+				return id;
+			};
+			const finishFile = async (trx: Knex.Transaction, fileId: number, stats: WriterStats, staging: string | null): Promise<IngestReport> => {
+				const report = makeReport(base, 'done', stats, { fileId });
+				await trx('ingest_files')
+					.where({ id: fileId })
+					.update({
+						status: 'done',
+						finished_at: report.finishedAt,
+						rows_total: stats.rows.total,
+						rows_accepted: stats.rows.accepted,
+						rows_rejected: stats.rows.rejected,
+						rows_duplicate: stats.rows.duplicate,
+						report_json: JSON.stringify(report),
+						staging_json: staging
+					});
+				return report;
+			};
+
+			// Phase 2, a small file: one transaction, no longer than one batch of a large file's.
+			if (writer.rowsRead <= DIRECT_ROWS) {
+				const report = await k.transaction(async (trx) => {
+					const fileId = await recordFile(trx);
+					return finishFile(trx, fileId, await writer.publishDirect(trx, fileId), null);
+				});
+				progress({ phase: 'done', bytesDone: info.sizeBytes, bytesTotal: info.sizeBytes, rows: report.rows.total });
+				return report;
+			}
+
+			// Phase 2, a large file: short transactions. The file's row says `processing` until the flip, so
+			// an interrupted publish is undone when its process starts again (recoverInterruptedIngests).
+			const fileId = await k.transaction(async (trx) => {
+				const id = await recordFile(trx);
 				await trx('ingest_files').where({ id }).update({ staging_json: JSON.stringify({ phase: 'staging', created: writer.createdIds }) });
 				return id;
 			});
@@ -238,26 +273,17 @@ export async function ingestFile(filePath: string, opts: IngestOptions): Promise
 				await writer.stageRows(k, fileId);
 				const published = await k.transaction(async (trx) => {
 					const stats = await writer.flip(trx, fileId);
-					const report = makeReport(base, 'done', stats, { fileId });
-					await trx('ingest_files')
-						.where({ id: fileId })
-						.update({
-							status: 'done',
-							finished_at: report.finishedAt,
-							rows_total: stats.rows.total,
-							rows_accepted: stats.rows.accepted,
-							rows_rejected: stats.rows.rejected,
-							rows_duplicate: stats.rows.duplicate,
-							report_json: JSON.stringify(report),
-							staging_json: JSON.stringify({ phase: 'scoring' })
-						});
+					await finishFile(trx, fileId, stats, JSON.stringify({ phase: 'scoring' }));
 					return stats;
 				});
 				progress({ phase: 'processing', bytesDone: info.sizeBytes, bytesTotal: info.sizeBytes, rows: published.rows.total });
 				await removeStaged(k, fileId);
-				const scored = await scoreFile(k, fileId);
-				published.waferSteps = { scored: scored.scored, noBaseline: scored.noBaseline };
-				published.alarmsOpened = scored.alarmsOpened;
+				await writer.scoreStaged(k, fileId);
+				// anything the staged file did not cover (nothing, normally)
+				const rest = await scoreFile(k, fileId);
+				published.waferSteps.scored += rest.scored;
+				published.waferSteps.noBaseline += rest.noBaseline;
+				published.alarmsOpened.push(...rest.alarmsOpened);
 				const report = makeReport(base, 'done', published, { fileId });
 				await k('ingest_files').where({ id: fileId }).update({ finished_at: report.finishedAt, report_json: JSON.stringify(report), staging_json: null });
 				progress({ phase: 'done', bytesDone: info.sizeBytes, bytesTotal: info.sizeBytes, rows: published.rows.total });

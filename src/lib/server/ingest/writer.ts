@@ -6,8 +6,9 @@
  * 2. publishing, in short transactions (pipeline.ts): `prepare` creates the recipe steps and chambers
  *    the stored rows need; `stageRows` copies the staged rows into `ingest_staged_rows` a batch per
  *    transaction, sorting out rows already stored (duplicate or conflict); `flip` moves them into
- *    wafer_steps with one INSERT … SELECT and stores the kept rejections; `scoreFile` then scores the
- *    file's new wafer-steps a batch per transaction.
+ *    wafer_steps with one INSERT … SELECT and stores the kept rejections; `scoreStaged` then scores the
+ *    file's new wafer-steps a batch per transaction. A small file (at most DIRECT_ROWS rows) is
+ *    published by `publishDirect` in one transaction instead.
  *
  * Rejections are bounded per file (issue 13): the first REJECTION_ROWS_KEPT in full, then counts per
  * column and reason; a file whose first REFUSE_AFTER_ROWS rows are all refused for what the bytes say
@@ -413,32 +414,12 @@ export class FileWriter {
 	 */
 	async stageRows(k: Knex, fileId: number): Promise<void> {
 		for await (const staged of this.stage.batches(BATCH_ROWS)) {
-			const batch: Pending[] = staged.map((r) => ({
-				...r,
-				chamberId: r.chamberId < 0 ? this.chamberIds.get(r.chamberId)! : r.chamberId,
-				plan: this.plans.get(r.planKey)!
-			}));
+			const batch = this.resolve(staged);
 			await k.transaction(async (trx) => {
 				await writeFirst(trx, fileId);
 				const stored = await this.storedRows(trx, batch);
 				const fresh = batch.filter((p) => !stored.has(`${p.waferId}\u0000${p.plan.recipeStepId}`));
-				const createdAt = Date.now();
-				for (let i = 0; i < fresh.length; i += INSERT_ROWS)
-					await trx('ingest_staged_rows').insert(
-						fresh.slice(i, i + INSERT_ROWS).map((p) => ({
-							ingest_file_id: fileId,
-							wafer_id: p.waferId,
-							lot_id: p.lotId,
-							slot: p.slot,
-							chamber_id: p.chamberId,
-							recipe_step_id: p.plan.recipeStepId,
-							processed_at: p.processedAt,
-							feature_set_version: p.plan.featureSetVersion,
-							feature_values: encodeValues(p.values),
-							rf_on_s: p.rfOn,
-							created_at: createdAt
-						}))
-					);
+				await this.insertRows(trx, 'ingest_staged_rows', fileId, fresh);
 				this.stagedRows += fresh.length;
 				const already = batch.filter((p) => stored.has(`${p.waferId}\u0000${p.plan.recipeStepId}`));
 				if (already.length) await this.sortAlreadyStored(trx, already, stored);
@@ -477,6 +458,112 @@ export class FileWriter {
 		// The staged rows are inert once flipped; removeStaged clears them after, in short transactions.
 		this.stats.rows.accepted += this.stagedRows - raced;
 		this.stats.rows.duplicate += raced;
+		return this.storeRejections(trx, fileId);
+	}
+
+	/** Rows staged in the temporary file while the file was read. */
+	get rowsRead(): number {
+		return this.stage.rows;
+	}
+
+	/**
+	 * A small file (at most DIRECT_ROWS staged rows) is published in one transaction, as the lock it
+	 * takes is no longer than one batch of a large file's: rows straight into wafer_steps, scored, the
+	 * rejections stored. Call after `prepare` in the same transaction.
+	 */
+	async publishDirect(trx: Knex.Transaction, fileId: number): Promise<WriterStats> {
+		for await (const staged of this.stage.batches(BATCH_ROWS)) {
+			const batch = this.resolve(staged);
+			const stored = await this.storedRows(trx, batch);
+			const fresh = batch.filter((p) => !stored.has(`${p.waferId}\u0000${p.plan.recipeStepId}`));
+			const ids = await this.insertRows(trx, 'wafer_steps', fileId, fresh);
+			const already = batch.filter((p) => stored.has(`${p.waferId}\u0000${p.plan.recipeStepId}`));
+			// another file's row stored between the lookup and the insert (the insert skipped it): sort it too
+			const skipped = fresh.filter((p) => !ids.has(`${p.waferId}\u0000${p.plan.recipeStepId}`));
+			if (skipped.length) for (const [key, r] of await this.storedRows(trx, skipped)) stored.set(key, r);
+			if (already.length + skipped.length) await this.sortAlreadyStored(trx, [...already, ...skipped], stored);
+			this.stats.rows.accepted += ids.size;
+			await this.score(trx, fresh, ids);
+		}
+		return this.storeRejections(trx, fileId);
+	}
+
+	/**
+	 * After the flip: score the file's new wafer-steps in file order, one transaction per batch, with the
+	 * vectors from the staging file (not read back from the database).
+	 */
+	async scoreStaged(k: Knex, fileId: number): Promise<void> {
+		for await (const staged of this.stage.batches(BATCH_ROWS)) {
+			const batch = this.resolve(staged);
+			await k.transaction(async (trx) => {
+				await writeFirst(trx, fileId);
+				const ids = new Map<string, number>();
+				const wafers = [...new Set(batch.map((p) => p.waferId))];
+				for (let i = 0; i < wafers.length; i += INSERT_ROWS)
+					for (const r of await trx('wafer_steps')
+						.where({ ingest_file_id: fileId, scoring_state: 'pending' })
+						.whereIn('wafer_id', wafers.slice(i, i + INSERT_ROWS))
+						.select('id', 'wafer_id', 'recipe_step_id'))
+						ids.set(`${r.wafer_id}\u0000${r.recipe_step_id}`, Number(r.id));
+				await this.score(trx, batch, ids);
+			});
+			await yieldToLoop();
+		}
+	}
+
+	private resolve(staged: StagedRow[]): Pending[] {
+		return staged.map((r) => ({
+			...r,
+			chamberId: r.chamberId < 0 ? this.chamberIds.get(r.chamberId)! : r.chamberId,
+			plan: this.plans.get(r.planKey)!
+		}));
+	}
+
+	/** Score the rows of a batch that were stored (their ids by `wafer\0recipeStepId`). */
+	private async score(trx: Knex.Transaction, batch: Pending[], ids: Map<string, number>): Promise<void> {
+		const fresh = [];
+		for (const p of batch) {
+			const id = ids.get(`${p.waferId}\u0000${p.plan.recipeStepId}`);
+			if (id !== undefined)
+				fresh.push({ id, chamberId: p.chamberId, recipeStepId: p.plan.recipeStepId, processedAt: p.processedAt, featureSetVersion: p.plan.featureSetVersion, values: p.values });
+		}
+		const s = await scoreWaferSteps(trx, fresh);
+		this.stats.waferSteps.scored += s.scored;
+		this.stats.waferSteps.noBaseline += s.noBaseline;
+		this.stats.alarmsOpened.push(...s.alarmsOpened);
+	}
+
+	/** Insert rows into wafer_steps (skipping a wafer × step stored meanwhile) or ingest_staged_rows; returns wafer_steps ids by key. */
+	private async insertRows(trx: Knex.Transaction, table: 'wafer_steps' | 'ingest_staged_rows', fileId: number, rows: Pending[]): Promise<Map<string, number>> {
+		const createdAt = Date.now();
+		const ids = new Map<string, number>();
+		for (let i = 0; i < rows.length; i += INSERT_ROWS) {
+			const values = rows.slice(i, i + INSERT_ROWS).map((p) => ({
+				ingest_file_id: fileId,
+				wafer_id: p.waferId,
+				lot_id: p.lotId,
+				slot: p.slot,
+				chamber_id: p.chamberId,
+				recipe_step_id: p.plan.recipeStepId,
+				processed_at: p.processedAt,
+				feature_set_version: p.plan.featureSetVersion,
+				feature_values: encodeValues(p.values),
+				rf_on_s: p.rfOn,
+				created_at: createdAt,
+				...(table === 'wafer_steps' ? { scoring_state: 'pending' } : {})
+			}));
+			if (table === 'ingest_staged_rows') {
+				await trx(table).insert(values);
+				continue;
+			}
+			const part = await trx(table).insert(values).onConflict(['wafer_id', 'recipe_step_id']).ignore().returning(['id', 'wafer_id', 'recipe_step_id']);
+			for (const r of part) ids.set(`${r.wafer_id}\u0000${r.recipe_step_id}`, Number(r.id));
+		}
+		return ids;
+	}
+
+	/** The kept rejections and the feature-set proposals, in the publishing transaction. */
+	private async storeRejections(trx: Knex.Transaction, fileId: number): Promise<WriterStats> {
 		const rows = this.kept.map((e) => ({ ingest_file_id: fileId, line: e.line, column: e.column, value: e.value, reason: e.reason }));
 		for (let i = 0; i < rows.length; i += INSERT_ROWS) await trx('ingest_rejections').insert(rows.slice(i, i + INSERT_ROWS));
 		const columns = this.header?.features.map((f) => f.name) ?? [];
