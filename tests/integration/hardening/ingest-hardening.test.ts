@@ -292,3 +292,20 @@ describe('an interrupted publish', () => {
 		expect((await k('ingest_files').where({ id: flipped.fileId }).first('staging_json')).staging_json).toBeNull();
 	});
 });
+
+describe('a JSON body nested millions deep', () => {
+	it('is refused by the depth scan before JSON.parse, with the event loop never held long', async () => {
+		const { monitorEventLoopDelay } = await import('node:perf_hooks');
+		const lines = 5_000; // 5,000,000 deep in lines of 1,000 brackets (no line over the 1 MB limit)
+		const body = `{"rows":\n${`${'['.repeat(1000)}\n`.repeat(lines)}${`${']'.repeat(1000)}\n`.repeat(lines)}}`;
+		const file = write(env.dir, 'deep.json', body);
+		const h = monitorEventLoopDelay({ resolution: 10 });
+		h.enable();
+		const r = await ingestFile(file, { source: 'api' });
+		h.disable();
+		expect(r.status).toBe('rejected');
+		expect(r.fileError?.reason).toMatch(/^The JSON body is nested more than 32 levels deep \(at character \d+\)/);
+		expect(r.fileError?.line).toBe(2);
+		console.log(`deep JSON: longest event-loop stall ${(h.max / 1e6).toFixed(0)} ms`);
+	});
+});

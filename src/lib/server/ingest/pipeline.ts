@@ -194,8 +194,8 @@ export async function ingestFile(filePath: string, opts: IngestOptions): Promise
 		throw e;
 	}
 
-	// A step's catalog changed between reading and publishing (another file created it, an engineer
-	// accepted a new feature set): read the file again with the new catalog (rare; a few attempts).
+	// A recipe step this file would create was created by another file between reading and publishing
+	// (CatalogChanged): read the file again against the new catalog (rare; a few attempts).
 	for (let attempt = 1; ; attempt++) {
 		const writer = new FileWriter(k, {
 			stagingPath: path.join(spoolDir(), `${randomBytes(12).toString('hex')}.stage`),
