@@ -108,8 +108,14 @@ async function lock() {
 		const { ingestFile } = await import(${JSON.stringify(path.resolve('src/lib/server/ingest/index.ts'))});
 		const { openDb } = await import(${JSON.stringify(path.resolve('src/lib/server/db.ts'))});
 		const k = openDb({ client: 'better-sqlite3', filename: ${JSON.stringify(file)}, connectionString: null });
+		let begun = 0, longest = 0, longestSql = '', first = '';
+		k.on('query', (q) => {
+			if (/^BEGIN/.test(q.sql)) { begun = performance.now(); first = ''; }
+			else if (/^COMMIT/.test(q.sql)) { const d = performance.now() - begun; if (d > longest) { longest = d; longestSql = first; } }
+			else if (!first) first = q.sql.slice(0, 60);
+		});
 		const r = await ingestFile(${JSON.stringify(big)}, { source: 'inbox', k });
-		console.log(r.summary);
+		console.log(r.summary + ' Longest transaction ' + Math.round(longest) + ' ms (' + longestSql + ' …)');
 		await k.destroy();`], { stdio: ['ignore', 'pipe', 'inherit'] });
 	let out = '';
 	child.stdout.on('data', (d) => (out += d));
