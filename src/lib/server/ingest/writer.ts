@@ -499,12 +499,11 @@ export class FileWriter {
 				await writeFirst(trx, fileId);
 				const ids = new Map<string, number>();
 				const wafers = [...new Set(batch.map((p) => p.waferId))];
+				// by wafer id alone (the unique index), filtered here: with the file's own columns in the WHERE
+				// the planner walked the file's index and read every pending row per batch
 				for (let i = 0; i < wafers.length; i += INSERT_ROWS)
-					for (const r of await trx('wafer_steps')
-						.where({ ingest_file_id: fileId, scoring_state: 'pending' })
-						.whereIn('wafer_id', wafers.slice(i, i + INSERT_ROWS))
-						.select('id', 'wafer_id', 'recipe_step_id'))
-						ids.set(`${r.wafer_id}\u0000${r.recipe_step_id}`, Number(r.id));
+					for (const r of await trx('wafer_steps').whereIn('wafer_id', wafers.slice(i, i + INSERT_ROWS)).select('id', 'wafer_id', 'recipe_step_id', 'ingest_file_id', 'scoring_state'))
+						if (Number(r.ingest_file_id) === fileId && r.scoring_state === 'pending') ids.set(`${r.wafer_id}\u0000${r.recipe_step_id}`, Number(r.id));
 				await this.score(trx, batch, ids);
 			});
 			await yieldToLoop();
