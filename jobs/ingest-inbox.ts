@@ -9,7 +9,12 @@
  * file with the stored report. Either way the end state is that of an uninterrupted run.
  *
  * Tool hosts should write a file under a name starting with "." or ending in ".part" and rename it
- * when complete; files modified in the last `settleMs` are also left for the next run.
+ * when complete. For hosts that write straight into the inbox, a file is taken only when (issue 13):
+ * - it was not modified in the last `settleMs`;
+ * - its size and modification time are the same in two scans `stableMs` apart;
+ * - it ends complete — a CSV with a line break, a JSON with `]` or `}` — or has not changed for
+ *   `incompleteGraceMs` (a host that never ends its last line). A file cut inside a number and paused
+ *   was taken before, with the cut value stored.
  *
  * Run alone: `node --import tsx jobs/ingest-inbox.ts [--progress]` processes the inbox once and exits.
  */
@@ -19,13 +24,17 @@ import { pathToFileURL } from 'node:url';
 import type { Knex } from 'knex';
 import { config } from '../src/lib/server/config.ts';
 import { closeDb, db, migrateLatest } from '../src/lib/server/db.ts';
-import { ingestFile, type IngestProgress, type IngestReport } from '../src/lib/server/ingest/index.ts';
+import { ingestFile, recoverInterruptedIngests, sweepSpool, type IngestProgress, type IngestReport } from '../src/lib/server/ingest/index.ts';
 import { yieldToWebServer } from './priority.ts';
 
 export interface InboxOptions {
 	inboxDir?: string;
 	/** leave files modified more recently than this for the next run (default 5 s) */
 	settleMs?: number;
+	/** a file's size and mtime must be equal in two scans this far apart (default 2 s; 0 when settleMs is 0) */
+	stableMs?: number;
+	/** a file whose end is incomplete is left alone until unchanged this long (default 10 min; 0 when settleMs is 0) */
+	incompleteGraceMs?: number;
 	k?: Knex;
 	log?: (line: string) => void;
 	onProgress?: (name: string, p: IngestProgress) => void;
@@ -52,6 +61,64 @@ function candidates(dir: string, settleMs: number): string[] {
 		.filter((f) => settleMs <= 0 || t - f.mtime >= settleMs)
 		.sort((a, b) => a.mtime - b.mtime || a.name.localeCompare(b.name))
 		.map((f) => f.name);
+}
+
+interface Seen {
+	size: number;
+	mtimeMs: number;
+}
+
+function look(file: string): Seen | null {
+	try {
+		const st = fs.statSync(file);
+		return { size: st.size, mtimeMs: st.mtimeMs };
+	} catch {
+		return null; // moved or removed meanwhile
+	}
+}
+
+/** Whether a file ends as a complete file of its kind: a CSV's last line ends, a JSON's last bracket closes. */
+function endsComplete(file: string, size: number): boolean {
+	if (size === 0) return true; // refused as empty, with its own message
+	const n = Math.min(size, 64);
+	const buf = Buffer.alloc(n);
+	const fd = fs.openSync(file, 'r');
+	try {
+		fs.readSync(fd, buf, 0, n, size - n);
+	} finally {
+		fs.closeSync(fd);
+	}
+	if (file.toLowerCase().endsWith('.json')) {
+		const tail = buf.toString('latin1').trimEnd();
+		return tail.endsWith(']') || tail.endsWith('}');
+	}
+	return buf[n - 1] === 0x0a;
+}
+
+/**
+ * The files ready to take: stable across two scans `stableMs` apart, and complete (or unchanged for
+ * the grace period). Files left out are looked at again next run.
+ */
+async function readyFiles(dir: string, names: string[], stableMs: number, graceMs: number, log: (s: string) => void): Promise<string[]> {
+	const first = new Map(names.map((n) => [n, look(path.join(dir, n))]));
+	if (stableMs > 0 && names.length) await new Promise((r) => setTimeout(r, stableMs));
+	const ready: string[] = [];
+	for (const name of names) {
+		const file = path.join(dir, name);
+		const a = first.get(name);
+		const b = look(file);
+		if (!a || !b) continue;
+		if (a.size !== b.size || a.mtimeMs !== b.mtimeMs) {
+			log(`inbox: ${name} is still being written; taken when it stops changing`);
+			continue;
+		}
+		if (!endsComplete(file, b.size) && Date.now() - b.mtimeMs < graceMs) {
+			log(`inbox: ${name} ends inside a line (still being written?); taken once complete, or unchanged for ${Math.round(graceMs / 60_000)} min`);
+			continue;
+		}
+		ready.push(name);
+	}
+	return ready;
 }
 
 /** One worker at a time per inbox, across processes: an exclusive lock file holding the pid. */
@@ -117,9 +184,17 @@ export async function runInbox(opts: InboxOptions = {}): Promise<InboxOutcome[]>
 	}
 	const out: InboxOutcome[] = [];
 	try {
-		for (const name of candidates(dir, opts.settleMs ?? 5000)) {
+		// What a killed worker left: a file not yet flipped is undone (it is still in the inbox and is
+		// read again below), a flipped file's pending scoring is finished; orphan spool files go.
+		const recovered = await recoverInterruptedIngests(k, ['inbox']);
+		if (recovered.undone || recovered.scored) log(`inbox: recovered after an interruption: ${recovered.undone} unpublished file(s) undone, ${recovered.scored} file(s) scored`);
+		sweepSpool();
+		const settleMs = opts.settleMs ?? 5000;
+		const stableMs = opts.stableMs ?? (settleMs > 0 ? 2000 : 0);
+		const graceMs = opts.incompleteGraceMs ?? (settleMs > 0 ? 10 * 60_000 : 0);
+		for (const name of await readyFiles(dir, candidates(dir, settleMs), stableMs, graceMs, log)) {
 			const file = path.join(dir, name);
-			const report = await ingestFile(file, { source: 'inbox', originalName: name, onProgress: (p) => opts.onProgress?.(name, p) });
+			const report = await ingestFile(file, { source: 'inbox', originalName: name, k, onProgress: (p) => opts.onProgress?.(name, p) });
 			let written: unknown = report;
 			if (report.status === 'duplicate' && report.duplicateOfFileId !== null) {
 				// After a crash between commit and move this is the same file: keep the stored report beside it.

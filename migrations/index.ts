@@ -13,6 +13,7 @@ import * as featureSetProposals from './20261201030000_feature_set_proposals.ts'
 import * as rollupSeasoning from './20261201040000_rollup_seasoning.ts';
 import * as alarmEpisodes from './20261203020000_alarm_episodes.ts';
 import * as fleetRuns from './20261203030000_fleet_runs.ts';
+import * as ingestStaging from './20261203040000_ingest_staging.ts';
 import * as structureAndTokens from './20261203050000_structure_and_tokens.ts';
 import * as qualifications from './20261203060000_qualifications.ts';
 
@@ -26,6 +27,7 @@ const migrations: Record<string, Knex.Migration> = {
 	'20261201040000_rollup_seasoning.ts': rollupSeasoning,
 	'20261203020000_alarm_episodes.ts': alarmEpisodes,
 	'20261203030000_fleet_runs.ts': fleetRuns,
+	'20261203040000_ingest_staging.ts': ingestStaging,
 	'20261203050000_structure_and_tokens.ts': structureAndTokens,
 	'20261203060000_qualifications.ts': qualifications
 };

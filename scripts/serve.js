@@ -30,6 +30,16 @@ if (!fs.existsSync(handlerFile)) {
 	console.error('build/handler.js is missing: run `npm run build` first.');
 	process.exit(1);
 }
+// Plain-HTTP default for ORIGIN, set before adapter-node's handler reads it at import: without it
+// adapter-node assumes https://<Host>, so SvelteKit refuses the sign-in POST as cross-site (403) on a
+// fresh clone's `npm start`. Behind a TLS proxy set ORIGIN to the public address (README).
+const listenHost = process.env.HOST ?? '127.0.0.1';
+const listenPort = Number(process.env.PORT ?? 3000);
+if (!process.env.ORIGIN && !process.env.PROTOCOL_HEADER && !process.env.HOST_HEADER) {
+	const shown = listenHost === '0.0.0.0' || listenHost === '::' ? '127.0.0.1' : listenHost.includes(':') ? `[${listenHost}]` : listenHost;
+	process.env.ORIGIN = `http://${shown}:${listenPort}`;
+	console.log(`ORIGIN not set: using ${process.env.ORIGIN} (set ORIGIN to the address people type)`);
+}
 const { handler } = await import(handlerFile);
 
 /** Defaults for every answer; a page's own values (hooks.server.ts, kit.csp) replace them. */
@@ -47,8 +57,8 @@ const num = (name, fallback) => {
 	if (!Number.isFinite(v) || v < 0) throw new Error(`${name} must be a non-negative number, got "${raw}"`);
 	return v;
 };
-const host = process.env.HOST ?? '127.0.0.1';
-const port = Number(process.env.PORT ?? 3000);
+const host = listenHost;
+const port = listenPort;
 const maxHeaderKb = num('LOCKSTEP_MAX_HEADER_KB', 16);
 const shutdownS = num('SHUTDOWN_TIMEOUT', 30);
 

@@ -1,10 +1,11 @@
-import { error, type Handle, type HandleServerError } from '@sveltejs/kit';
+import { error, type Handle, type HandleServerError, type ServerInit } from '@sveltejs/kit';
 import { reportUnexpected } from '$lib/server/unexpected-error';
 import { sequence } from '@sveltejs/kit/hooks';
 import { luciaFor } from '$lib/server/auth';
 import { decide } from '$lib/server/route-policy';
 import { securityHeaders } from '$lib/server/security-headers';
-import { closeDb } from '$lib/server/db';
+import { closeDb, db } from '$lib/server/db';
+import { recoverInterruptedIngests, sweepSpool } from '$lib/server/ingest';
 import { noteLocalWrite } from '$lib/server/answer-cache';
 import { bearerToken, verifyApiToken } from '$lib/server/api-tokens';
 import { THEME_COOKIE, themeFromCookie, withHtmlTheme } from '$lib/components/ui/theme';
@@ -13,6 +14,22 @@ import { THEME_COOKIE, themeFromCookie, withHtmlTheme } from '$lib/components/ui
 process.on('sveltekit:shutdown', () => {
 	void closeDb();
 });
+
+/**
+ * At start: finish what a killed server left of uploads and API ingests (an unflipped file is undone,
+ * a flipped one's pending scoring done; see ingest/pipeline.ts) and sweep orphan spool files.
+ */
+export const init: ServerInit = async () => {
+	try {
+		const r = await recoverInterruptedIngests(db(), ['upload', 'api']);
+		if (r.undone || r.scored) console.log(`ingest: recovered after an interruption: ${r.undone} unpublished upload(s) undone, ${r.scored} upload(s) scored`);
+		const swept = sweepSpool();
+		if (swept) console.log(`ingest: removed ${swept} orphan spool file(s) of stopped processes`);
+	} catch (e) {
+		// no database yet (before the first migration): nothing to recover
+		console.warn('ingest recovery skipped:', e instanceof Error ? e.message : e);
+	}
+};
 
 /** Resolve the session cookie to `locals.user`, refreshing or clearing the cookie as Lucia says. */
 const session: Handle = async ({ event, resolve }) => {
@@ -68,6 +85,19 @@ const bearer: Handle = async ({ event, resolve }) => {
 	return resolve(event);
 };
 
+/**
+ * `POST /page?/default`: SvelteKit reads `?/default` as a named action called "default" and answers a
+ * page with only a default action with a 500. It is the client's mistake: 400 with the reason.
+ */
+const namedDefault: Handle = async ({ event, resolve }) => {
+	if (event.request.method === 'POST' && event.url.searchParams.has('/default'))
+		return new Response(JSON.stringify({ error: '`?/default` names no action: post the form to the page itself (no `?/…`), or to `?/<action>` for a named one.' }), {
+			status: 400,
+			headers: { 'content-type': 'application/json' }
+		});
+	return resolve(event);
+};
+
 /** Enforce ROUTE_POLICY on every request that matched a route. */
 const authorize: Handle = async ({ event, resolve }) => {
 	const routeId = event.route.id;
@@ -114,7 +144,7 @@ const freshness: Handle = async ({ event, resolve }) => {
 	}
 };
 
-export const handle = sequence(headers, session, bearer, authorize, freshness);
+export const handle = sequence(headers, namedDefault, session, bearer, authorize, freshness);
 
 /** An unexpected error: logged with a reference id, shown without its text or stack (see unexpected-error.ts). */
 export const handleError: HandleServerError = (input) => reportUnexpected(input);

@@ -29,6 +29,14 @@ async function createAccount(username: string, password: string, role = 'viewer'
 		await k.destroy();
 	}
 }
+/** The viewer's sign-in form posted to another server (same origin as that server). */
+const signInAt = (serverBase: string) =>
+	fetch(`${serverBase}/sign-in`, {
+		method: 'POST',
+		redirect: 'manual',
+		headers: { origin: serverBase, 'content-type': 'application/x-www-form-urlencoded', accept: 'text/html' },
+		body: new URLSearchParams({ username: TEST_USERS.viewer, password: TEST_PASSWORD })
+	});
 const login = (username: string, password: string) => request('/sign-in', { form: { username, password, next: '/' } });
 
 let browser: Browser;
@@ -50,12 +58,7 @@ describe('session cookies', () => {
 	it('are Secure when LOCKSTEP_SECURE_COOKIES=true (a second server over the same data)', async () => {
 		const s = await startServer(inject('dataDir'), { LOCKSTEP_SECURE_COOKIES: 'true' });
 		try {
-			const r = await fetch(`${s.base}/sign-in`, {
-				method: 'POST',
-				redirect: 'manual',
-				headers: { origin: s.base, 'content-type': 'application/x-www-form-urlencoded', accept: 'text/html' },
-				body: new URLSearchParams({ username: TEST_USERS.viewer, password: TEST_PASSWORD })
-			});
+			const r = await signInAt(s.base);
 			expect(r.status).toBe(303);
 			const c = sessionCookie(r);
 			expect(c).toMatch(/;\s*Secure/i);
@@ -103,9 +106,78 @@ describe('sign-in throttling over HTTP', () => {
 		const blocked = await login('throttle-probe', 'throttle-right-password-1');
 		expect(blocked.status).toBe(429);
 		expect(sessionCookie(blocked)).toBe('');
-		expect(await blocked.text()).toMatch(/Too many failed sign-ins\. Try again in 1[45] minutes/);
+		expect(await blocked.text()).toMatch(/Too many failed sign-ins for this account\. Try again in 1[45] minutes, or ask an admin to reset your password: a reset lifts the lock/);
 		// Another account from the same address is not affected.
 		expect(sessionCookie(await login(TEST_USERS.viewer, TEST_PASSWORD))).not.toBe('');
+	});
+});
+
+describe('sign-in hardening (issue 13)', () => {
+	const clear = async (usernames: string[]) => {
+		const k = db();
+		try {
+			await k('sign_in_attempts').whereIn('username', usernames).delete();
+		} finally {
+			await k.destroy();
+		}
+	};
+	afterAll(() => clear(['race-probe', 'pw-probe']));
+
+	it('30 wrong passwords for one account sent at once: 5 get 400, the other 25 get 429', async () => {
+		const id = await createAccount('race-probe', 'race-right-password-1');
+		const answers = await Promise.all(Array.from({ length: 30 }, (_, i) => login('race-probe', `wrong-${i}-password`)));
+		const statuses = answers.map((r) => r.status);
+		expect(statuses.filter((s) => s === 400)).toHaveLength(5);
+		expect(statuses.filter((s) => s === 429)).toHaveLength(25);
+		// the lock holds for the right password; an admin's reset lifts it, as the 429 says
+		expect((await login('race-probe', 'race-right-password-1')).status).toBe(429);
+		const admin = await signIn('admin');
+		expect((await request('/admin/users?/reset', { cookie: admin, form: { id, password: 'race-second-password-2' } })).status).toBe(200);
+		expect(sessionCookie(await login('race-probe', 'race-second-password-2'))).not.toBe('');
+	});
+
+	it('a password change is throttled like a sign-in', async () => {
+		await createAccount('pw-probe', 'pw-right-password-1');
+		const cookie = sessionCookie(await login('pw-probe', 'pw-right-password-1')).split(';')[0];
+		const change = (current: string) => request('/account?/password', { cookie, form: { current, next: 'pw-new-password-22', repeat: 'pw-new-password-22' } });
+		const statuses: number[] = [];
+		for (let i = 0; i < 8; i++) statuses.push((await change(`not-it-${i}`)).status);
+		expect(statuses).toEqual([400, 400, 400, 400, 400, 429, 429, 429]);
+		const right = await change('pw-right-password-1');
+		expect(right.status).toBe(429);
+		expect(await right.text()).toMatch(/Too many failed password checks for this account/);
+	});
+
+	it('next= never leaves the site, however it is spelled', async () => {
+		const cookie = await signIn('viewer');
+		// as typed in the address bar: %09 decodes to a tab, which browsers drop, leaving //host
+		for (const query of ['next=/%09/127.0.0.1:3201/pwned', 'next=/%0A/evil.example', 'next=//evil.example/', 'next=/%5Cevil.example', 'next=https://evil.example/']) {
+			const r = await request(`/sign-in?${query}`, { cookie });
+			expect(r.status).toBe(303);
+			expect(r.headers.get('location')).toBe('/');
+		}
+		const posted = await request('/sign-in', { form: { username: TEST_USERS.viewer, password: TEST_PASSWORD, next: '/\t/127.0.0.1:3201/pwned' } });
+		expect(posted.status).toBe(303);
+		expect(posted.headers.get('location')).toBe('/');
+		const kept = await request('/sign-in', { form: { username: TEST_USERS.viewer, password: TEST_PASSWORD, next: '/alarms?state=open' } });
+		expect(kept.headers.get('location')).toBe('/alarms?state=open');
+	});
+
+	it('POST /sign-in?/default answers 400 with a reason, not 500', async () => {
+		const r = await request('/sign-in?/default', { form: { username: 'x', password: 'y' } });
+		expect(r.status).toBe(400);
+		expect((await r.json()).error).toMatch(/names no action/);
+	});
+
+	it('npm start without ORIGIN: the sign-in form works on the address it serves', async () => {
+		const s = await startServer(inject('dataDir'), { ORIGIN: '' });
+		try {
+			const r = await signInAt(s.base);
+			expect(r.status).toBe(303);
+			expect(sessionCookie(r)).not.toBe('');
+		} finally {
+			await s.stop();
+		}
 	});
 });
 

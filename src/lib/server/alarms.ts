@@ -339,7 +339,7 @@ export async function acknowledgeAlarms(
 	a: { alarmIds: number[]; userId: string; causeCode: string; disposition: string; comment: string }
 ): Promise<{ acknowledged: number[] }> {
 	if (a.alarmIds.length === 0) throw new AlarmError('Choose at least one alarm.', 'alarmIds');
-	if (!(a.disposition in DISPOSITIONS)) throw new AlarmError('Choose a disposition.', 'disposition');
+	if (!Object.hasOwn(DISPOSITIONS, a.disposition)) throw new AlarmError('Choose a disposition.', 'disposition');
 	const comment = a.comment.trim();
 	if (comment.length > 2000) throw new AlarmError('Keep the comment under 2,000 characters.', 'comment');
 	return k.transaction(async (trx) => {

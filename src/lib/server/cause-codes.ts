@@ -40,7 +40,7 @@ function validate(input: { code?: string; title: string; category: string }): Fi
 	const title = input.title.trim();
 	if (!title) e.title = 'Give the cause a title.';
 	else if (title.length > 200) e.title = 'Keep the title under 200 characters.';
-	if (!(input.category in CAUSE_CATEGORIES)) e.category = 'Choose a category.';
+	if (!Object.hasOwn(CAUSE_CATEGORIES, input.category)) e.category = 'Choose a category.';
 	return e;
 }
 

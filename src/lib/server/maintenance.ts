@@ -24,7 +24,7 @@ export async function logMaintenance(
 	e: { chamberId: number; kind: string; at: number; userId: string | null; comment: string },
 	k: Knex = db()
 ): Promise<{ id: number; requalify: boolean }> {
-	if (!(e.kind in MAINTENANCE_KINDS)) throw new MaintenanceError('Choose a kind of maintenance.', 'kind');
+	if (!Object.hasOwn(MAINTENANCE_KINDS, e.kind)) throw new MaintenanceError('Choose a kind of maintenance.', 'kind');
 	if (!Number.isFinite(e.at)) throw new MaintenanceError('Give the time of the work.', 'at');
 	if (e.at > now() + 10 * 60_000) throw new MaintenanceError('The time is in the future.', 'at');
 	if (e.comment.length > 2000) throw new MaintenanceError('Keep the comment under 2,000 characters.', 'comment');

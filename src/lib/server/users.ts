@@ -4,6 +4,7 @@ import type { Knex } from 'knex';
 import { randomBytes } from 'node:crypto';
 import { db } from './db.ts';
 import { isRole, type Role } from './roles.ts';
+import { clearAccountFailures } from './throttle.ts';
 import { now } from './time.ts';
 
 export interface User {
@@ -136,10 +137,17 @@ function dummyHash(): Promise<string> {
 	return dummy;
 }
 
+/**
+ * Set a new password (an admin's reset or the user's own change). The account's failed sign-ins are
+ * forgotten in the same transaction, so a reset lifts the account's sign-in lock, as the 429 text says.
+ */
 export async function setPassword(userId: string, password: string, k: Knex = db()): Promise<void> {
-	await k('users')
-		.where({ id: userId })
-		.update({ password_hash: await hashPassword(password), password_changed_at: now() });
+	const hash = await hashPassword(password);
+	await k.transaction(async (trx) => {
+		const u = await trx('users').where({ id: userId }).first('username');
+		await trx('users').where({ id: userId }).update({ password_hash: hash, password_changed_at: now() });
+		if (u) await clearAccountFailures(String(u.username), trx);
+	});
 }
 
 export async function setRole(userId: string, role: Role, k: Knex = db()): Promise<void> {

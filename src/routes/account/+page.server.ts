@@ -1,6 +1,8 @@
 import { fail } from '@sveltejs/kit';
 import { luciaFor } from '$lib/server/auth';
-import { getUserByUsername, setPassword, validatePassword, verifyPassword } from '$lib/server/users';
+import { clientAddress } from '$lib/server/client-address';
+import { verifyCurrentPassword } from '$lib/server/sign-in';
+import { setPassword, validatePassword } from '$lib/server/users';
 import type { Actions, PageServerLoad } from './$types';
 
 export const load: PageServerLoad = async ({ locals }) => ({ me: locals.user });
@@ -13,9 +15,9 @@ export const actions: Actions = {
 		const current = String(form.get('current') ?? '');
 		const next = String(form.get('next') ?? '');
 		const repeat = String(form.get('repeat') ?? '');
-		const record = await getUserByUsername(user.username);
-		if (!record || !(await verifyPassword(record.passwordHash, current)))
-			return fail(400, { field: 'current', message: 'The current password is not right.' });
+		// Throttled like a sign-in (same limits, same counts): a session cannot guess the password faster.
+		const check = await verifyCurrentPassword(user.username, current, clientAddress(event));
+		if (!check.ok) return fail(check.status, { field: 'current', message: check.message });
 		const problem = validatePassword(next);
 		if (problem) return fail(400, { field: 'next', message: problem });
 		if (next !== repeat) return fail(400, { field: 'repeat', message: 'The two new passwords differ.' });

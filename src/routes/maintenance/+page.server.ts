@@ -15,7 +15,7 @@ export const load: PageServerLoad = async ({ url, locals, cookies }) => {
 	const sp = url.searchParams;
 	const ignored: string[] = [];
 	const kindRaw = sp.get('kind') ?? '';
-	const kind = kindRaw in MAINTENANCE_KINDS ? (kindRaw as MaintenanceKind) : null;
+	const kind = Object.hasOwn(MAINTENANCE_KINDS, kindRaw) ? (kindRaw as MaintenanceKind) : null;
 	if (kindRaw && !kind) ignored.push('kind');
 	const day = (name: string) => {
 		const v = sp.get(name) ?? '';
@@ -57,7 +57,7 @@ export const actions: Actions = {
 		const errors: Record<string, string> = {};
 		const chamberId = Number(values.chamberId);
 		if (!Number.isInteger(chamberId) || chamberId <= 0) errors.chamberId = 'Choose the chamber.';
-		if (!(values.kind in MAINTENANCE_KINDS)) errors.kind = 'Choose a kind of maintenance.';
+		if (!Object.hasOwn(MAINTENANCE_KINDS, values.kind)) errors.kind = 'Choose a kind of maintenance.';
 		const at = fromLocalInput(values.at, zone);
 		if (at === null) errors.at = `Give the date and time of the work (${zone}), e.g. 2026-11-20 14:30.`;
 		if (Object.keys(errors).length) return fail(400, { action: 'log', errors, values });

@@ -1,14 +1,8 @@
 import { fail, redirect } from '@sveltejs/kit';
 import { luciaFor } from '$lib/server/auth';
 import { clientAddress } from '$lib/server/client-address';
-import { attemptSignIn } from '$lib/server/sign-in';
+import { attemptSignIn, safeNext } from '$lib/server/sign-in';
 import type { Actions, PageServerLoad } from './$types';
-
-/** Only same-site paths are followed after sign-in (no open redirect). */
-function safeNext(raw: string | null): string {
-	if (!raw || !raw.startsWith('/') || raw.startsWith('//') || raw.startsWith('/\\')) return '/';
-	return raw;
-}
 
 export const load: PageServerLoad = async ({ locals, url }) => {
 	if (locals.user) redirect(303, safeNext(url.searchParams.get('next')));
@@ -17,7 +11,8 @@ export const load: PageServerLoad = async ({ locals, url }) => {
 
 export const actions: Actions = {
 	default: async (event) => {
-		const form = await event.request.formData();
+		const form = await event.request.formData().catch(() => null);
+		if (!form) return fail(400, { username: '', message: 'The sign-in form could not be read: send it as a form (user name and password).' });
 		const username = String(form.get('username') ?? '');
 		const password = String(form.get('password') ?? '');
 		const result = await attemptSignIn(username, password, clientAddress(event));

@@ -23,14 +23,17 @@ describe('ingest: idempotency', () => {
 		expect(await count(env.k, 'ingest_files')).toBe(1);
 	});
 
-	it('the same wafer × step in a second file is counted as a duplicate and left unchanged', async () => {
+	it('the same wafer × step with the same content in a second file is a duplicate; with other values it is refused as a conflict', async () => {
 		const before = await env.k('wafer_steps').where({ wafer_id: 'W00003' }).first();
 		const changed = row(3, { values: Array(10).fill(1) });
-		const file = write(env.dir, 'b.csv', csv(HEADER, [changed, row(10), row(11)]));
+		const file = write(env.dir, 'b.csv', csv(HEADER, [changed, row(10), row(11), row(4)]));
 		const r = await ingestFile(file, { source: 'inbox' });
 		expect(r.status).toBe('done');
-		expect(r.rows).toEqual({ total: 3, accepted: 2, rejected: 0, duplicate: 1 });
-		expect(r.duplicates).toEqual([{ line: 2, waferId: 'W00003', recipe: 'OX-ETCH', step: 'main', storedByFileId: before.ingest_file_id }]);
+		expect(r.rows).toEqual({ total: 4, accepted: 2, rejected: 1, duplicate: 1 });
+		expect(r.duplicates).toEqual([{ line: 5, waferId: 'W00004', recipe: 'OX-ETCH', step: 'main', storedByFileId: before.ingest_file_id }]);
+		expect(r.rejections).toHaveLength(1);
+		expect(r.rejections[0]).toMatchObject({ line: 2, column: 'wafer_id', value: 'W00003' });
+		expect(r.rejections[0].reason).toMatch(/already stored \(file #\d+\) with other content — oes_337\.1 1 ≠ stored /);
 		const after = await env.k('wafer_steps').where({ wafer_id: 'W00003' }).first();
 		expect(Buffer.compare(after.feature_values, before.feature_values)).toBe(0);
 		expect(await count(env.k, 'wafer_steps')).toBe(12);

@@ -1,7 +1,7 @@
 /**
- * Recipes, recipe steps, their feature catalogs and chambers as the ingest pipeline meets them. All
- * functions take the file's transaction, so whatever a file creates on first sight is rolled back with
- * the file when it is refused.
+ * Recipes, recipe steps, their feature catalogs and chambers as the ingest pipeline meets them. A file
+ * is first read with read-only lookups (resolveStepPlan); whatever it creates (createPlannedStep,
+ * registerChamber) is made inside its publishing transaction, so a refused file creates nothing.
  */
 import type { Knex } from 'knex';
 import { planActinometry } from '../../monitoring/actinometry.ts';
@@ -32,8 +32,8 @@ export interface StepPlan {
 	refusal: string | null;
 	/** with a refusal: the file's columns that the step's set lacks, and the set's columns the file lacks */
 	mismatch: { added: string[]; missing: string[] } | null;
-	/** set when this file created the step (and perhaps its recipe): undone if none of its rows is stored */
-	createdHere?: { recipeId: number; recipeCode: string; recipeCreated: boolean; label: string };
+	/** set while the step does not exist yet: `createPlannedStep` makes it when the file is published */
+	toCreate?: { recipeCode: string; stepName: string };
 }
 
 export interface Created {
@@ -90,44 +90,36 @@ export async function insertCatalog(
 	return rows.length;
 }
 
+/**
+ * How this file's rows of one recipe step become vectors. Read-only: a step the fab does not have yet
+ * gets a plan with a placeholder id (negative) and `toCreate`; `createPlannedStep` makes it inside the
+ * file's publishing transaction, and only when at least one of its rows is stored — so a refused file
+ * never leaves a catalog behind, and reading a file takes no write lock.
+ */
 export async function resolveStepPlan(
-	trx: Knex.Transaction,
+	k: Knex,
 	header: Header,
 	recipeCode: string,
 	stepName: string,
-	created: Created
+	placeholderId: number
 ): Promise<StepPlan> {
-	let recipe = await trx('recipes').where({ code: recipeCode }).first('id');
-	let recipeCreated = false;
-	if (!recipe) {
-		const [r] = await trx('recipes').insert({ code: recipeCode, name: recipeCode }).returning('id');
-		recipe = { id: id(r) };
-		created.recipes.push(recipeCode);
-		recipeCreated = true;
-	}
-	const step = await trx('recipe_steps').where({ recipe_id: recipe.id, name: stepName }).first('id', 'feature_set_version');
+	const recipe = await k('recipes').where({ code: recipeCode }).first('id');
+	const step = recipe ? await k('recipe_steps').where({ recipe_id: recipe.id, name: stepName }).first('id', 'feature_set_version') : null;
 	const derived = derivedFor(header.features);
 	if (!step) {
-		const count = Number((await trx('recipe_steps').where({ recipe_id: recipe.id }).count({ n: '*' }).first())?.n ?? 0);
-		const [s] = await trx('recipe_steps')
-			.insert({ recipe_id: recipe.id, name: stepName, position: count, feature_set_version: 1 })
-			.returning('id');
-		const recipeStepId = id(s);
 		const F = header.features.length;
-		await insertCatalog(trx, recipeStepId, 1, header.features);
-		created.recipeSteps.push(`${recipeCode} / ${stepName}`);
 		return {
-			recipeStepId,
+			recipeStepId: placeholderId,
 			featureSetVersion: 1,
 			positions: Int32Array.from(header.features.map((_, i) => i)),
 			length: F + derived.length,
 			derived: derived.map((d, i) => ({ ...d, position: F + i })),
 			refusal: null,
 			mismatch: null,
-			createdHere: { recipeId: recipe.id, recipeCode, recipeCreated, label: `${recipeCode} / ${stepName}` }
+			toCreate: { recipeCode, stepName }
 		};
 	}
-	const catalog: Array<{ position: number; name: string; kind: string }> = await trx('features')
+	const catalog: Array<{ position: number; name: string; kind: string }> = await k('features')
 		.where({ recipe_step_id: step.id, set_version: step.feature_set_version })
 		.orderBy('position')
 		.select('position', 'name', 'kind');
@@ -165,6 +157,62 @@ export async function resolveStepPlan(
 		refusal: null,
 		mismatch: null
 	};
+}
+
+/**
+ * The catalog changed between reading a file and publishing it (another file created the same step, or
+ * an engineer accepted a new feature set): the staged vectors may be laid out for the old set, so the
+ * file is read again (pipeline.ts retries).
+ */
+export class CatalogChanged extends Error {
+	constructor(what: string) {
+		super(`the catalog changed while the file was read (${what}); read it again`);
+		this.name = 'CatalogChanged';
+	}
+}
+
+/** What a file created, by id, so that an interrupted publish can be undone (pipeline.ts). */
+export interface CreatedIds {
+	recipeIds: number[];
+	recipeStepIds: number[];
+	chamberIds: number[];
+}
+
+/** Make the recipe step (and its recipe) a plan stands for, inside the publishing transaction. */
+export async function createPlannedStep(trx: Knex.Transaction, header: Header, plan: StepPlan, created: Created, ids: CreatedIds): Promise<void> {
+	const want = plan.toCreate;
+	if (!want) return;
+	let recipe = await trx('recipes').where({ code: want.recipeCode }).first('id');
+	if (!recipe) {
+		const [r] = await trx('recipes').insert({ code: want.recipeCode, name: want.recipeCode }).returning('id');
+		recipe = { id: id(r) };
+		created.recipes.push(want.recipeCode);
+		ids.recipeIds.push(recipe.id);
+	}
+	if (await trx('recipe_steps').where({ recipe_id: recipe.id, name: want.stepName }).first('id'))
+		throw new CatalogChanged(`${want.recipeCode} / ${want.stepName} was created meanwhile`);
+	const count = Number((await trx('recipe_steps').where({ recipe_id: recipe.id }).count({ n: '*' }).first())?.n ?? 0);
+	const [s] = await trx('recipe_steps').insert({ recipe_id: recipe.id, name: want.stepName, position: count, feature_set_version: 1 }).returning('id');
+	plan.recipeStepId = id(s);
+	plan.toCreate = undefined;
+	ids.recipeStepIds.push(plan.recipeStepId);
+	await insertCatalog(trx, plan.recipeStepId, 1, header.features);
+	created.recipeSteps.push(`${want.recipeCode} / ${want.stepName}`);
+}
+
+/**
+ * Undo what an interrupted publish created, where nothing else came to use it: its recipe steps (with
+ * their catalogs), then recipes left without steps, then chambers that hold no wafer-step.
+ */
+export async function undoCreated(trx: Knex.Transaction, ids: CreatedIds): Promise<void> {
+	for (const stepId of ids.recipeStepIds) {
+		if (await trx('wafer_steps').where({ recipe_step_id: stepId }).first('id')) continue;
+		await trx('feature_set_proposals').where({ recipe_step_id: stepId }).delete();
+		await trx('features').where({ recipe_step_id: stepId }).delete();
+		await trx('recipe_steps').where({ id: stepId }).delete();
+	}
+	for (const recipeId of ids.recipeIds) if (!(await trx('recipe_steps').where({ recipe_id: recipeId }).first('id'))) await trx('recipes').where({ id: recipeId }).delete();
+	for (const chamberId of ids.chamberIds) if (!(await trx('wafer_steps').where({ chamber_id: chamberId }).first('id'))) await trx('chambers').where({ id: chamberId }).delete();
 }
 
 // ── Chambers ──────────────────────────────────────────────────────────────────

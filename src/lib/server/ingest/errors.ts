@@ -6,18 +6,28 @@ export interface Location {
 	value: string | null;
 }
 
+/** With a refusal after many refused rows: the rows' own rejections, bounded, and their counts. */
+export interface RefusalDetail {
+	rejections: Array<Location & { line: number; reason: string }>;
+	rejectionsTotal: number;
+	rejectionCounts: Array<{ column: string | null; reason: string; count: number }>;
+	rowsRead: number;
+}
+
 /**
- * A problem that refuses the whole file (header, encoding, size, structure). Thrown inside the file's
- * transaction, so whatever was written before it is rolled back.
+ * A problem that refuses the whole file (header, encoding, size, structure, or a first thousand rows
+ * all refused). Thrown while the file is read, before anything of it is written.
  */
 export class IngestFileError extends Error {
 	readonly location: Location;
 	/** `size` for an over-size file (HTTP 413); everything else is `input` */
 	readonly kind: 'size' | 'input';
-	constructor(reason: string, location: Partial<Location> = {}, kind: 'size' | 'input' = 'input') {
+	readonly detail: RefusalDetail | null;
+	constructor(reason: string, location: Partial<Location> = {}, kind: 'size' | 'input' = 'input', detail: RefusalDetail | null = null) {
 		super(reason);
 		this.name = 'IngestFileError';
 		this.kind = kind;
+		this.detail = detail;
 		this.location = { line: location.line ?? null, column: location.column ?? null, value: location.value ?? null };
 	}
 }

@@ -13,11 +13,33 @@ export const MAX_COLUMNS = 4096;
 /** Rows queued before they are written and scored together (scoring has a cost per chamber × step group). */
 export const BATCH_ROWS = 2000;
 
+/**
+ * A file with at most this many accepted rows is published in one transaction (its lock is no longer
+ * than one batch of a large file's); a larger one is staged in batches and flipped (pipeline.ts).
+ */
+export const DIRECT_ROWS = 2000;
+
 /** Rows per INSERT: Knex writes a multi-row insert on SQLite as a compound SELECT, limited to 500 terms. */
 export const INSERT_ROWS = 500;
 
-/** Rejections listed in the report JSON; the table `ingest_rejections` keeps all of them. */
+/** Rejections listed in the report JSON (the first ones; `ingest_rejections` keeps REJECTION_ROWS_KEPT). */
 export const REPORT_REJECTION_CAP = 200;
+
+/**
+ * Rejections stored in full per file (`ingest_rejections`); past them only counts per column and reason
+ * are kept (the report's `rejectionCounts`). Before this bound a 2 MB file of empty lines stored 1.5 M
+ * rejection rows, ≈ 90× its size (issue 13).
+ */
+export const REJECTION_ROWS_KEPT = 1000;
+
+/** Distinct column × reason groups counted per file; further ones are counted together as "other". */
+export const REJECTION_GROUPS_CAP = 100;
+
+/** A file whose first this-many rows are all refused for what its bytes say is refused there. */
+export const REFUSE_AFTER_ROWS = 1000;
+
+/** Rows validated between two yields to the event loop while a file is read. */
+export const YIELD_EVERY_ROWS = 1000;
 
 /** Duplicate wafer-steps listed in the report JSON (all are counted). */
 export const REPORT_DUPLICATE_CAP = 50;

@@ -18,6 +18,13 @@ export interface Rejection extends Location {
 	kind?: 'size' | 'input';
 }
 
+/** How many rejections a file had for one column and reason (all of them, also past the kept ones). */
+export interface RejectionCount {
+	column: string | null;
+	reason: string;
+	count: number;
+}
+
 export interface DuplicateRow {
 	line: number;
 	waferId: string;
@@ -37,16 +44,21 @@ export interface IngestReport {
 	status: IngestStatus;
 	/** one sentence for people */
 	summary: string;
-	/** for `duplicate`: the earlier file with the same SHA-256 */
+	/**
+	 * for `duplicate`: the earlier file with the same SHA-256; for `rejected`: the earlier refusal of the
+	 * same bytes, answered again without reading them (a refused file's repeat is cheap)
+	 */
 	duplicateOfFileId: number | null;
 	rows: { total: number; accepted: number; rejected: number; duplicate: number };
 	waferSteps: { scored: number; noBaseline: number };
 	alarmsOpened: number[];
 	/** recipes, recipe steps (their feature sets fixed by this file) and chambers first seen here */
 	created: { recipes: string[]; recipeSteps: string[]; chambers: string[] };
-	/** the first REPORT_REJECTION_CAP rejections; all are in ingest_rejections */
+	/** the first REPORT_REJECTION_CAP rejections; ingest_rejections keeps the first REJECTION_ROWS_KEPT */
 	rejections: Rejection[];
 	rejectionsTotal: number;
+	/** every rejection counted per column and reason, most frequent first */
+	rejectionCounts: RejectionCount[];
 	duplicates: DuplicateRow[];
 	/** the problem that refused the whole file, located */
 	fileError: Rejection | null;
@@ -60,7 +72,8 @@ export function summarise(r: Pick<IngestReport, 'status' | 'rows' | 'waferSteps'
 	if (r.status === 'rejected') {
 		const e = r.fileError!;
 		const where = [e.line ? `line ${e.line}` : null, e.column ? `column ${e.column}` : null].filter(Boolean).join(', ');
-		return `${r.fileName} was refused${where ? ` (${where})` : ''}: ${e.reason}`;
+		const again = r.duplicateOfFileId !== null ? `, as these same bytes were before (file #${r.duplicateOfFileId})` : '';
+		return `${r.fileName} was refused${again}${where ? ` (${where})` : ''}: ${e.reason}`;
 	}
 	if (r.status === 'failed') return `${r.fileName} could not be processed: ${r.fileError?.reason ?? 'internal error'}. Nothing was stored.`;
 	const parts = [`${r.rows.accepted} of ${r.rows.total} rows stored`];

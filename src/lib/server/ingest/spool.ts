@@ -11,10 +11,50 @@ import { config } from '../config.ts';
 import { ByteInspector, type InspectResult } from './bytes.ts';
 import { IngestFileError } from './errors.ts';
 
+const spoolRoot = () => path.join(config.dataDir, 'tmp', 'ingest');
+
+/**
+ * This process's folder for spooled uploads and staged rows: one per process id, so a process sweeping
+ * at its start (sweepSpool) never removes a file another live process is using.
+ */
 export function spoolDir(): string {
-	const dir = path.join(config.dataDir, 'tmp', 'ingest');
+	const dir = path.join(spoolRoot(), String(process.pid));
 	fs.mkdirSync(dir, { recursive: true });
 	return dir;
+}
+
+function alive(pid: number): boolean {
+	try {
+		process.kill(pid, 0);
+		return true;
+	} catch (e) {
+		return (e as NodeJS.ErrnoException).code === 'EPERM';
+	}
+}
+
+/**
+ * Remove what killed processes left in the spool (uploads cut off by a crash, staged rows of an
+ * interrupted ingest): the folders of processes no longer running, and loose files of the older
+ * one-folder layout not touched for an hour. Called when the web server and the inbox job start.
+ * @returns the number of files removed
+ */
+export function sweepSpool(): number {
+	const root = spoolRoot();
+	if (!fs.existsSync(root)) return 0;
+	let removed = 0;
+	for (const e of fs.readdirSync(root, { withFileTypes: true })) {
+		const p = path.join(root, e.name);
+		if (e.isDirectory() && /^\d+$/.test(e.name)) {
+			const pid = Number(e.name);
+			if (pid === process.pid || alive(pid)) continue;
+			removed += fs.readdirSync(p).length;
+			fs.rmSync(p, { recursive: true, force: true });
+		} else if (e.isFile() && Date.now() - fs.statSync(p).mtimeMs > 3_600_000) {
+			fs.rmSync(p, { force: true });
+			removed++;
+		}
+	}
+	return removed;
 }
 
 export async function writeTemp(data: Buffer, ext: string): Promise<string> {
@@ -52,7 +92,10 @@ export async function spoolStream(
 		// A body refused for its content (binary, encoding, an over-long line) is read to its end, up to
 		// the size limit, so the client gets the located answer instead of a connection reset mid-send.
 		if (e instanceof IngestFileError && e.kind === 'input') await drain(input, opts.limitBytes - done);
-		input.destroy();
+		// The rest is left unread, never destroyed: destroying the body resets the connection, and a
+		// client still sending (a chunked upload past the size limit) saw a reset instead of the 413
+		// (issue 13). Node's server discards what is still sent once the answer is out (bounded by its
+		// requestTimeout) and the client reads the answer.
 		throw e;
 	}
 }

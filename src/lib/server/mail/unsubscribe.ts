@@ -46,7 +46,7 @@ export async function verifyUnsubscribeToken(token: string | null, k: Knex = db(
 		return { ok: false, reason: 'The token’s signature does not match. The link was changed, or it was made by another Lockstep installation.' };
 	try {
 		const body = JSON.parse(Buffer.from(payload, 'base64url').toString('utf8')) as { u?: unknown; s?: unknown };
-		if (typeof body.u !== 'string' || typeof body.s !== 'string' || !(body.s in UNSUBSCRIBE_SCOPES))
+		if (typeof body.u !== 'string' || typeof body.s !== 'string' || !Object.hasOwn(UNSUBSCRIBE_SCOPES, body.s))
 			return { ok: false, reason: 'The token names no user or no kind of mail.' };
 		return { ok: true, userId: body.u, scope: body.s as UnsubscribeScope };
 	} catch {

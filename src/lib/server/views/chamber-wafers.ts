@@ -174,33 +174,76 @@ export const CSV_LIMIT = 100_000;
  * Every row of the filtered selection (in the table's order) as CSV text, written with papaparse.
  * @throws RangeError when more than {@link CSV_LIMIT} rows match
  */
-export async function chamberWafersCsv(chamberCode: string, chamberId: number, recipeStepId: number | null, q: WaferTableQuery, k: Knex = db()): Promise<{ csv: string; rows: number }> {
-	const total = Number((await filtered(k, chamberId, recipeStepId, q).count({ n: '*' }).first())?.n ?? 0);
-	if (total > CSV_LIMIT) throw new RangeError(`${total.toLocaleString('en-US')} rows match; narrow the time range or filter to at most ${CSV_LIMIT.toLocaleString('en-US')}.`);
+const CSV_FIELDS = ['chamber', 'wafer_id', 'lot_id', 'slot', 'recipe', 'step', 'processed_at_utc', 't2_over_limit', 'q_over_limit', 'phi_over_limit', 'state', 'golden', 'baseline_version', 'wafer_step_id'];
+/** Rows read and written per slice of the export; the event loop runs between slices. */
+const CSV_PAGE = 2000;
+
+/**
+ * Every filtered row of the wafer table as CSV, in slices: the size is checked first (RangeError past
+ * CSV_LIMIT, before anything is sent), then `chunks` yields the header and one slice of CSV_PAGE rows at
+ * a time, yielding to the event loop between slices — a 77,000-row export held the server 1.3 s when
+ * it was read and written in one go (issue 13). The route streams the chunks. The order is read once, at
+ * the start (one query of ids): rows that arrive while an export runs are not in it.
+ */
+export async function chamberWafersCsvChunks(
+	chamberCode: string,
+	chamberId: number,
+	recipeStepId: number | null,
+	q: WaferTableQuery,
+	k: Knex = db()
+): Promise<{ rows: number; chunks: AsyncGenerator<string> }> {
 	const col = SORT_COLUMN[q.sort];
-	const rows = (
+	// The order once (ids only; its length is the count), then the rows a slice at a time by id — OFFSET
+	// paging re-sorted the whole set for every slice.
+	const order: number[] = (
 		await filtered(k, chamberId, recipeStepId, q)
 			.orderByRaw(`CASE WHEN ${col} IS NULL THEN 1 ELSE 0 END, ${col} ${q.dir}, w.processed_at ${q.dir}, w.id ${q.dir}`)
-			.select(COLUMNS)
-	).map(toRow);
-	const csv = Papa.unparse({
-		fields: ['chamber', 'wafer_id', 'lot_id', 'slot', 'recipe', 'step', 'processed_at_utc', 't2_over_limit', 'q_over_limit', 'phi_over_limit', 'state', 'golden', 'baseline_version', 'wafer_step_id'],
-		data: rows.map((r) => [
-			chamberCode,
-			r.waferId,
-			r.lotId,
-			r.slot ?? '',
-			r.recipeCode,
-			r.stepName,
-			new Date(r.processedAt).toISOString(),
-			r.t2Ratio ?? '',
-			r.qRatio ?? '',
-			r.phiRatio ?? '',
-			r.state,
-			r.golden ? 'yes' : 'no',
-			r.baselineVersion ?? '',
-			r.id
-		])
-	});
-	return { csv, rows: rows.length };
+			.limit(CSV_LIMIT + 1)
+			.select('w.id')
+	).map((r: { id: number }) => Number(r.id));
+	if (order.length > CSV_LIMIT) {
+		const total = Number((await filtered(k, chamberId, recipeStepId, q).count({ n: '*' }).first())?.n ?? 0);
+		throw new RangeError(`${total.toLocaleString('en-US')} rows match; narrow the time range or filter to at most ${CSV_LIMIT.toLocaleString('en-US')}.`);
+	}
+	async function* chunks(): AsyncGenerator<string> {
+		const header = Papa.unparse({ fields: CSV_FIELDS, data: [] });
+		yield order.length === 0 ? header : header.trimEnd();
+		for (let offset = 0; offset < order.length; offset += CSV_PAGE) {
+			const ids = order.slice(offset, offset + CSV_PAGE);
+			const at = new Map(ids.map((id, i) => [id, i]));
+			const found = (await filtered(k, chamberId, recipeStepId, q).whereIn('w.id', ids).select(COLUMNS)).map(toRow);
+			// a row deleted since the order was read is left out
+			const rows = found.sort((a, b) => at.get(a.id)! - at.get(b.id)!);
+			if (rows.length === 0) continue;
+			yield '\r\n' +
+				Papa.unparse(
+					rows.map((r) => [
+						chamberCode,
+						r.waferId,
+						r.lotId,
+						r.slot ?? '',
+						r.recipeCode,
+						r.stepName,
+						new Date(r.processedAt).toISOString(),
+						r.t2Ratio ?? '',
+						r.qRatio ?? '',
+						r.phiRatio ?? '',
+						r.state,
+						r.golden ? 'yes' : 'no',
+						r.baselineVersion ?? '',
+						r.id
+					])
+				);
+			await new Promise<void>((resolve) => setImmediate(resolve));
+		}
+	}
+	return { rows: order.length, chunks: chunks() };
+}
+
+/** The whole export as one string (tests, small exports). */
+export async function chamberWafersCsv(chamberCode: string, chamberId: number, recipeStepId: number | null, q: WaferTableQuery, k: Knex = db()): Promise<{ csv: string; rows: number }> {
+	const { rows, chunks } = await chamberWafersCsvChunks(chamberCode, chamberId, recipeStepId, q, k);
+	let csv = '';
+	for await (const c of chunks) csv += c;
+	return { csv, rows };
 }

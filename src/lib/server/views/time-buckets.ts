@@ -14,7 +14,7 @@ export const HEAT_WINDOWS = {
 export type HeatWindow = keyof typeof HEAT_WINDOWS;
 
 export function isHeatWindow(x: unknown): x is HeatWindow {
-	return typeof x === 'string' && x in HEAT_WINDOWS;
+	return typeof x === 'string' && Object.hasOwn(HEAT_WINDOWS, x);
 }
 
 /**

@@ -2,7 +2,7 @@ import { json } from '@sveltejs/kit';
 import { answerJson, type Computed } from '$lib/server/answer-cache';
 import { canonicalQuery } from '$lib/server/views/query-params';
 import { getChamberHeader, type ChamberHeader } from '$lib/server/views/chamber-view';
-import { chamberWafersCsv, listChamberWafers, parseWaferTableParams, type WaferTableQuery } from '$lib/server/views/chamber-wafers';
+import { chamberWafersCsvChunks, listChamberWafers, parseWaferTableParams, type WaferTableQuery } from '$lib/server/views/chamber-wafers';
 import type { RequestHandler } from './$types';
 
 /** The table follows the data (kept while it is unchanged); the age cap is a backstop. */
@@ -38,9 +38,21 @@ export const GET: RequestHandler = async ({ params, url }) => {
 	const r = await resolve(params.code, url.searchParams);
 	if (!r.ok) return json(r.answer.value, { status: r.answer.status });
 	try {
-		const { csv } = await chamberWafersCsv(r.header.chamber.code, r.header.chamber.id, r.stepId, r.p);
+		// Streamed a slice at a time (chamber-wafers.ts): a large export never holds the event loop.
+		const { chunks } = await chamberWafersCsvChunks(r.header.chamber.code, r.header.chamber.id, r.stepId, r.p);
+		const encoder = new TextEncoder();
+		const body = new ReadableStream<Uint8Array>({
+			async pull(controller) {
+				const next = await chunks.next();
+				if (next.done) controller.close();
+				else controller.enqueue(encoder.encode(next.value));
+			},
+			async cancel() {
+				await chunks.return(undefined);
+			}
+		});
 		const name = `${r.header.chamber.code}-wafers-${new Date().toISOString().slice(0, 16).replace(/[:T]/g, '')}.csv`;
-		return new Response(csv, {
+		return new Response(body, {
 			headers: { 'content-type': 'text/csv; charset=utf-8', 'content-disposition': `attachment; filename="${name}"`, 'cache-control': 'no-store' }
 		});
 	} catch (e) {
