@@ -13,6 +13,8 @@ const contributor = (feature: string, share: number, lines: Contributor['lines']
 	lines,
 	z: 1,
 	leakGas: null,
+	limit: null,
+	significant: false,
 	unit: null
 });
 
