@@ -163,8 +163,11 @@ export function leakSignature(evidence: LeakEvidence, contributors: readonly Lea
  */
 export function goldenZ(model: BaselineModel, x: Row): Float64Array {
 	const z = new Float64Array(model.p);
+	// A near-constant channel is measured in units of the sd the model used for it (floored at its
+	// resolution, see fitScaling): one quantisation step is then about 1 σ, not 10⁶ σ.
+	const floored = new Map(model.lowVarianceFeatures.map((f) => [f.index, f.floor]));
 	for (let j = 0; j < model.p; j++) {
-		const floor = Math.max(model.scaleFloor.relative * Math.abs(model.mean[j]), model.scaleFloor.absolute);
+		const floor = Math.max(model.scaleFloor.relative * Math.abs(model.mean[j]), model.scaleFloor.absolute, floored.get(j) ?? 0);
 		z[j] = (x[j] - model.mean[j]) / Math.max(model.sd[j], floor);
 	}
 	return z;

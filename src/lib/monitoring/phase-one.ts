@@ -155,13 +155,19 @@ export function advisedGoldenWafers(k: number): number {
 	return Math.max(20, 5 * k);
 }
 
+/** Shortest span of a golden set without a warning (see {@link goldenSetWarnings}). */
+export const MIN_SPAN_MS = 2 * 3_600_000;
+
 /**
  * Warnings an engineer should read before approving a golden set.
  *
  * Rules (common practice; thresholds ours): fewer wafers than max(20, 5k) (Jackson 1991 §1.7 and
  * Montgomery 2009 §11.3 advise at least 20–25 samples for Phase I; 5 per component is our margin for
  * the covariance); all wafers from one or two lots (lot-to-lot variation missing, common practice);
- * a span under 24 hours (no shift, idle or daily cycle, common practice); k = 1 with 20 or more
+ * a span under 2 hours (wafers run back to back: no idle period or shift change in the model; at a
+ * real chamber's 15–30 wafers an hour a requalification set of 30–60 wafers after a wet clean spans
+ * 1–4 h, so a day-long threshold would warn on every such set and keep it out of "approve all" — the
+ * lot rule carries the diversity check there); k = 1 with 20 or more
  * features (one direction cannot separate causes; T² contributions all equal T², so no ranking);
  * theory limits because cross-validation was not possible; more Phase I flags than twice the
  * expected false count plus one.
@@ -185,9 +191,9 @@ export function goldenSetWarnings(f: GoldenSetFacts): string[] {
 		);
 	if (f.times.length >= 2) {
 		const span = Math.max(...f.times) - Math.min(...f.times);
-		if (span < 24 * 3_600_000)
+		if (span < MIN_SPAN_MS)
 			out.push(
-				`The golden wafers span only ${(span / 3_600_000).toFixed(1)} hours: idle periods, shift changes and the daily cycle are not in the model. Prefer wafers spread over at least a day.`
+				`The golden wafers span only ${(span / 3_600_000).toFixed(1)} hours: they ran back to back, so idle periods and shift changes are not in the model. Prefer wafers spread over several hours and lots.`
 			);
 	}
 	if (f.k === 1 && f.p >= 20)

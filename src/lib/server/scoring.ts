@@ -7,7 +7,7 @@
  * the baseline's limits), its hourly rollup updated and the wafer alarm rules run.
  */
 import type { Knex } from 'knex';
-import { contributions, rankContributions, scoreBatch, type BaselineModel } from '../monitoring/index.ts';
+import { contributions, rankContributions, scoreBatch, stateRatio, type BaselineModel } from '../monitoring/index.ts';
 import { shiftedChiSquare, type ShiftedChiSquare } from '../monitoring/drift.ts';
 import { chiSquareUpper } from '../monitoring/quantiles.ts';
 import { designRules, type RuleBaseline } from '../monitoring/alarm-rules.ts';
@@ -93,7 +93,9 @@ async function scoreGroup(
 			q: s.q[i],
 			t2Ratio,
 			qRatio,
-			worstRatio: Math.max(t2Ratio, qRatio),
+			// The wafer's combined state (Bonferroni α/2 per statistic on calibrated models, stateRatio),
+			// so a stored "beyond limit" happens to an in-control wafer with probability α, not 2α.
+			worstRatio: model.limits.t2State !== undefined && model.limits.qState !== undefined ? stateRatio(model, s.t2[i], s.q[i], 0) : Math.max(t2Ratio, qRatio),
 			seasoning: seasoning.has(r.id)
 		};
 	});
