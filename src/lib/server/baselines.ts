@@ -344,7 +344,12 @@ export async function createDraftBaseline(req: DraftRequest, k: Knex = db()): Pr
 				alpha: req.alpha ?? policy.alpha,
 				warningAlpha: req.warningAlpha ?? policy.warningAlpha,
 				components: req.components ?? 'auto',
-				scaling: req.scaling ?? 'autoscale'
+				scaling: req.scaling ?? 'autoscale',
+				// A fleet model pools hundreds of golden wafers of approved chambers (n well above the
+				// usual p) and only serves the return-to-production check: the large-sample limits hold
+				// there, and the cross-validated refits (seconds per rebuild) would run at every
+				// baseline change. Chamber baselines always get the cross-validated limits.
+				limits: scope === 'fleet' ? 'theory' : 'cross-validated'
 			}
 		);
 		model = fit.model;
@@ -389,7 +394,8 @@ export async function createDraftBaseline(req: DraftRequest, k: Knex = db()): Pr
 		limitMethod: model.limitMethod,
 		phaseOne: phase,
 		warnings,
-		ewmaReference: await ewmaReference(
+		// Fleet models draw no drift chart (fleet alarms come from matching runs): no EWMA reference.
+		ewmaReference: scope === 'fleet' ? null : await ewmaReference(
 			wafers,
 			model,
 			scope === 'chamber' && req.chamberId !== null ? { chamberId: req.chamberId, recipeStepId: req.recipeStepId, setVersion } : null,
