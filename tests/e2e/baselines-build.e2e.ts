@@ -125,5 +125,5 @@ describe('baselines in the browser', () => {
 		await screenshot(p2, 'baseline-approved-rescored');
 		expect(await p2.getByTestId('active-baseline').textContent()).toContain('Test admin');
 		await ctx2.close();
-	});
+	}, 180_000); // a draft is fitted with cross-validated limits and Phase I screening (one refit per fold)
 });

@@ -377,7 +377,10 @@ const PAGES: Record<string, string> = {
 	'/admin/mail': '/admin/mail',
 	'/unsubscribe': '/unsubscribe?t=not-a-token',
 	'/admin/structure': '/admin/structure',
-	'/account/tokens': '/account/tokens'
+	'/account/tokens': '/account/tokens',
+	'/qualifications': '/qualifications',
+	// the demo seeds no campaign: the page's not-found answer is walked (it renders in the same shell)
+	'/qualifications/[id]': '/qualifications/999999'
 };
 
 function pageRouteIds(dir = 'src/routes', prefix = ''): string[] {

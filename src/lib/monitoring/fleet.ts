@@ -379,7 +379,10 @@ export function compareChambers(chambers: readonly ChamberWafers[], options: Fle
 		const adjusted = flag?.adjusted ?? Math.min(1, size * s.pc);
 		const bh = benjaminiHochberg(s.pv, fdr);
 		const order = Array.from({ length: p }, (_, j) => j).sort((a, b) => s.pv[a] - s.pv[b] || Math.abs(s.t[b]) - Math.abs(s.t[a]));
-		const named = flag ? order.filter((j) => bh.rejected[j]) : [];
+		// The named features (those the false-discovery control keeps) are listed by how far the chamber
+		// sits from the fleet in yardstick units: p-values of strong separations all underflow towards 0,
+		// and the engineer's question is "what moved most", not "what is most certain".
+		const named = flag ? order.filter((j) => bh.rejected[j]).sort((a, b) => Math.abs(s.off[b]) - Math.abs(s.off[a]) || s.pv[a] - s.pv[b]) : [];
 		const list = flag ? (named.length ? named : order.slice(0, 1)) : order.slice(0, top);
 		let distance = 0;
 		for (let j = 0; j < p; j++) distance = Math.max(distance, Math.abs(s.off[j]));

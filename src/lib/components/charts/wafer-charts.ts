@@ -5,7 +5,7 @@
  * mean in golden σ (where the band is always ±3 and a leak line stands out however faint it is).
  */
 import type { Contributor, WaferView } from '$lib/server/views/wafer-view';
-import { LEAK_RISE_Z } from '$lib/monitoring/leak-signature';
+import { LEAK_RISE_Z } from '$lib/monitoring/leak-rule';
 import { channelWavelength, chemical, OFF_CENTRE_NM } from '$lib/components/display/feature-name';
 import { baseAxis, baseTooltip, type ChartColors, type EChartsCoreOption } from './echarts';
 import { value } from './format';
