@@ -394,8 +394,7 @@ export async function createDraftBaseline(req: DraftRequest, k: Knex = db()): Pr
 		limitMethod: model.limitMethod,
 		phaseOne: phase,
 		warnings,
-		// Fleet models draw no drift chart (fleet alarms come from matching runs): no EWMA reference.
-		ewmaReference: scope === 'fleet' ? null : await ewmaReference(
+		ewmaReference: await ewmaReference(
 			wafers,
 			model,
 			scope === 'chamber' && req.chamberId !== null ? { chamberId: req.chamberId, recipeStepId: req.recipeStepId, setVersion } : null,
