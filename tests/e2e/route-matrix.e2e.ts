@@ -50,7 +50,7 @@ export const EXPECTED: Record<string, Entry> = {
 	'/uploads/feature-sets': { GET: 'viewer', actions: { accept: 'engineer', dismiss: 'engineer' } },
 	'/admin/tokens': { GET: 'admin', actions: { create: 'admin', revoke: 'admin' } },
 	'/api/ingest': { POST: 'engineer' },
-	'/api/matching': { GET: 'viewer', POST: 'engineer' },
+	'/api/matching': { path: '/api/matching?recipe=PGE-14&step=main_etch', GET: 'viewer', POST: 'engineer' },
 	'/api/alarms': { GET: 'viewer' },
 	'/api/alarms/acknowledge': { POST: 'engineer' },
 	'/api/uploads': { GET: 'engineer' },
